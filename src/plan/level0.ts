@@ -1,0 +1,62 @@
+import type { Rect } from '../geometry/rect.ts';
+import type { ImageService, TileSpec } from '../iiif/image-service.ts';
+import { imageRequestUrl } from '../iiif/image-url.ts';
+
+/**
+ * Picks the tile set and scale factor for a level-0 crop: the largest scale
+ * factor whose resolution (1/sf of full) is still at least the one needed
+ * (`imageScale` output pixels per image pixel). When even sf = 1 is coarser than
+ * needed (upscaling), sf = 1 is used and the crop is resampled locally.
+ */
+export function chooseScaleFactor(tiles: readonly TileSpec[], imageScale: number): { tile: TileSpec; sf: number } | undefined {
+  let best: { tile: TileSpec; sf: number } | undefined;
+  for (const tile of tiles) {
+    for (const sf of tile.scaleFactors) {
+      const ok = 1 / sf >= imageScale * (1 - 1e-9);
+      if (ok && (!best || sf > best.sf)) best = { tile, sf };
+    }
+  }
+  if (best) return best;
+  for (const tile of tiles) for (const sf of tile.scaleFactors) if (!best || sf < best.sf) best = { tile, sf };
+  return best;
+}
+
+export interface TileRef {
+  col: number;
+  row: number;
+  /** Region in full-image pixels. */
+  region: Rect;
+  /** Delivered size: ceil(region/sf). */
+  width: number;
+  height: number;
+  url: string;
+}
+
+/**
+ * The tiles at scale factor `sf` that cover an image region, with their URLs
+ * (Image API 3.0 implementation notes §3): xr = n·tw·s, wr = min(tw·s, W − xr),
+ * ws = ceil(wr / s). The region is always written `x,y,w,h` (never `full`),
+ * as static tile pyramids name their files that way; size is `w,h` for 3.0 and `w,` for 2.1.
+ */
+export function tilesCovering(service: ImageService, tile: TileSpec, sf: number, region: Rect, format = 'jpg'): TileRef[] {
+  const spanW = tile.width * sf, spanH = tile.height * sf;
+  const c0 = Math.floor(region.x / spanW), r0 = Math.floor(region.y / spanH);
+  const c1 = Math.ceil((region.x + region.w) / spanW) - 1, r1 = Math.ceil((region.y + region.h) / spanH) - 1;
+  const out: TileRef[] = [];
+  for (let row = r0; row <= r1; row++) {
+    for (let col = c0; col <= c1; col++) {
+      const xr = col * spanW, yr = row * spanH;
+      if (xr >= service.width || yr >= service.height) continue;
+      const wr = Math.min(spanW, service.width - xr), hr = Math.min(spanH, service.height - yr);
+      const ws = Math.ceil(wr / sf), hs = Math.ceil(hr / sf);
+      const url = imageRequestUrl(service.base, service.version, {
+        region: { x: xr, y: yr, w: wr, h: hr },
+        size: service.version === 3 ? { kind: 'wh', width: ws, height: hs } : { kind: 'w', width: ws },
+        quality: 'default',
+        format,
+      });
+      out.push({ col, row, region: { x: xr, y: yr, w: wr, h: hr }, width: ws, height: hs, url });
+    }
+  }
+  return out;
+}

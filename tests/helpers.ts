@@ -1,0 +1,19 @@
+import { readFileSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+export const FIXTURES = join(dirname(fileURLToPath(import.meta.url)), 'fixtures');
+
+export function fixture(rel: string): unknown {
+  return JSON.parse(readFileSync(join(FIXTURES, rel), 'utf8'));
+}
+
+/** Runs fn and returns what it threw (fails the test when it throws nothing). */
+export function thrown(fn: () => unknown): Error & Record<string, unknown> {
+  try {
+    fn();
+  } catch (err) {
+    return err as Error & Record<string, unknown>;
+  }
+  throw new Error('expected an error, none was thrown');
+}
