@@ -36,6 +36,7 @@ export function flattenPath(d: string, tolerance = 0.25): Point[][] {
   while (i < tokens.length) {
     const t = tokens[i];
     if (typeof t === 'string') {
+      if (lastCmd === '' && t !== 'M' && t !== 'm') throw new SyntaxError('path data must start with a moveto (M or m)');
       cmd = t;
       i++;
     } else if (cmd === '') {
