@@ -1,0 +1,74 @@
+import { readFile, rm } from 'node:fs/promises';
+import { join } from 'node:path';
+import { sha256Hex } from '../util/hash.ts';
+import { writeFileAtomic } from './atomic-write.ts';
+
+/** What we saw when a URL was fetched: the lock file's row. */
+export interface ResponseFacts {
+  url: string;
+  finalUrl: string;
+  sha256: string;
+  size: number;
+  contentType: string;
+  etag?: string;
+  lastModified?: string;
+}
+
+/**
+ * Content-addressed store: bodies under their sha256, and for each URL a small
+ * ref file with its response facts. Every write is atomic; every read is
+ * verified, and a corrupt body is deleted and reported as missing.
+ */
+export class ContentCache {
+  constructor(readonly dir: string) {}
+
+  private objectPath(sha: string): string {
+    return join(this.dir, 'objects', sha.slice(0, 2), sha);
+  }
+  private refPath(url: string): string {
+    const h = sha256Hex(url);
+    return join(this.dir, 'refs', h.slice(0, 2), `${h}.json`);
+  }
+
+  async putBody(body: Uint8Array): Promise<string> {
+    const sha = sha256Hex(body);
+    await writeFileAtomic(this.objectPath(sha), body);
+    return sha;
+  }
+
+  /** The body with this hash, or undefined when absent or corrupt (a corrupt file is removed). */
+  async getBody(sha: string): Promise<Buffer | undefined> {
+    let data: Buffer;
+    try {
+      data = await readFile(this.objectPath(sha));
+    } catch {
+      return undefined;
+    }
+    if (sha256Hex(data) !== sha) {
+      await rm(this.objectPath(sha), { force: true });
+      return undefined;
+    }
+    return data;
+  }
+
+  async putRef(facts: ResponseFacts): Promise<void> {
+    await writeFileAtomic(this.refPath(facts.url), `${JSON.stringify(facts)}\n`);
+  }
+
+  async getRef(url: string): Promise<ResponseFacts | undefined> {
+    try {
+      const parsed = JSON.parse(await readFile(this.refPath(url), 'utf8')) as ResponseFacts;
+      return parsed.url === url && typeof parsed.sha256 === 'string' ? parsed : undefined;
+    } catch {
+      return undefined;
+    }
+  }
+
+  /** The cached body for a URL, verified, with its facts. */
+  async lookup(url: string): Promise<{ facts: ResponseFacts; body: Buffer } | undefined> {
+    const facts = await this.getRef(url);
+    if (!facts) return undefined;
+    const body = await this.getBody(facts.sha256);
+    return body ? { facts, body } : undefined;
+  }
+}

@@ -1,0 +1,62 @@
+import { readFile } from 'node:fs/promises';
+import { byString } from '../util/hash.ts';
+import { InputError } from '../errors.ts';
+import type { ResponseFacts } from './cache.ts';
+import { writeFileAtomic } from './atomic-write.ts';
+
+export const LOCK_VERSION = 1;
+
+/** The lock: every request URL a build used, with the response facts it relied on. */
+export interface LockFile {
+  lockVersion: number;
+  entries: Record<string, Omit<ResponseFacts, 'url'>>;
+}
+
+export function emptyLock(): LockFile {
+  return { lockVersion: LOCK_VERSION, entries: {} };
+}
+
+/** Builds a lock from facts, sorted by URL so its bytes do not depend on arrival order. */
+export function lockFrom(facts: Iterable<ResponseFacts>): LockFile {
+  const rows = [...facts].sort((a, b) => byString(a.url, b.url));
+  const entries: LockFile['entries'] = {};
+  for (const f of rows) {
+    entries[f.url] = {
+      finalUrl: f.finalUrl,
+      sha256: f.sha256,
+      size: f.size,
+      contentType: f.contentType,
+      ...(f.etag !== undefined ? { etag: f.etag } : {}),
+      ...(f.lastModified !== undefined ? { lastModified: f.lastModified } : {}),
+    };
+  }
+  return { lockVersion: LOCK_VERSION, entries };
+}
+
+export function serialiseLock(lock: LockFile): string {
+  return `${JSON.stringify(lock, null, 2)}\n`;
+}
+
+export async function writeLock(path: string, lock: LockFile): Promise<void> {
+  await writeFileAtomic(path, serialiseLock(lock));
+}
+
+export async function readLock(path: string): Promise<LockFile | undefined> {
+  let text: string;
+  try {
+    text = await readFile(path, 'utf8');
+  } catch {
+    return undefined;
+  }
+  let doc: unknown;
+  try {
+    doc = JSON.parse(text);
+  } catch {
+    throw new InputError('E_JSON_SYNTAX', path, '', 'the lock file is not valid JSON');
+  }
+  const lock = doc as LockFile;
+  if (typeof lock !== 'object' || lock === null || lock.lockVersion !== LOCK_VERSION || typeof lock.entries !== 'object') {
+    throw new InputError('E_RECIPE_INVALID', path, '/lockVersion', `expected a lock file of version ${LOCK_VERSION}`);
+  }
+  return lock;
+}
