@@ -80,10 +80,23 @@ export function extractRegions(
   annotations: readonly RegionAnnotation[],
   canvases: ReadonlyMap<string, CanvasContext>,
   index: Map<string, string>,
-): { regions: Region[]; skipped: SkippedRegion[] } {
+): { regions: Region[]; skipped: SkippedRegion[]; obstacles: Map<string, Rect[]> } {
   const regions: Region[] = [];
   const skipped: SkippedRegion[] = [];
+  const obstacles = new Map<string, Rect[]>();
   for (const a of annotations) {
+    // Every annotated area is an obstacle for negatives, whatever its label.
+    for (const t of a.targets) {
+      const ctx = canvases.get(t.canvasId);
+      if (!ctx || t.selector.kind === 'whole') continue;
+      const c = ctx.canvas;
+      const r = t.selector.kind === 'point' ? { x: t.selector.x, y: t.selector.y, w: 0, h: 0 }
+        : t.selector.kind === 'xywh' ? fragmentToRect(t.selector.fragment, c.width, c.height)
+        : shapeBounds({ kind: 'polygon', rings: t.selector.rings });
+      const list = obstacles.get(c.id) ?? [];
+      list.push(r);
+      obstacles.set(c.id, list);
+    }
     const cls = classify(a.labels, index);
     if ('skip' in cls) {
       skipped.push({ annotationId: a.id, reason: cls.skip, detail: cls.detail });
@@ -126,10 +139,11 @@ export function extractRegions(
         canvasId: canvas.id,
         shape,
         bounds,
+        ...(a.group ? { group: a.group } : {}),
       });
     });
   }
   regions.sort((x, y) => byString(x.key, y.key));
   skipped.sort((x, y) => byString(x.annotationId, y.annotationId) || byString(x.reason, y.reason));
-  return { regions, skipped };
+  return { regions, skipped, obstacles };
 }

@@ -27,6 +27,8 @@ export interface RegionAnnotation {
   annotator?: string;
   motivations: string[];
   targets: AnnotationTarget[];
+  /** An explicit group (sheet rows sharing a `group` value). */
+  group?: string;
 }
 
 /** Purposes that make a body a label (Web Annotation §3.3.5); a body with no purpose counts too. */
