@@ -30,6 +30,16 @@ export interface HarvestResult {
   summary: { crops: number; served: number; failed: number; requests: number; fromCache: number; bytes: number; retries: number; uniquePieces: number };
 }
 
+/** Fetches a piece, trying its other spelling when the first answers 404. */
+export async function fetchPiece(fetcher: Fetcher, piece: Piece): Promise<Fetched> {
+  try {
+    return await fetcher.get(piece.url, 'image');
+  } catch (err) {
+    if (piece.fallbackUrl && err instanceof FetchError && err.status === 404) return fetcher.get(piece.fallbackUrl, 'image');
+    throw err;
+  }
+}
+
 /**
  * Fetches every piece of every crop into the cache. Pieces shared by several
  * crops (level-0 tiles) are fetched once. Each image is checked from its header:
@@ -51,14 +61,14 @@ export async function harvestCrops(
     urls.map(async (url) => {
       const piece = byUrl.get(url)!;
       try {
-        const got: Fetched = await fetcher.get(url, 'image');
+        const got: Fetched = await fetchPiece(fetcher, piece);
         const size = await imageSize(got.body, opts.pixelLimit).catch((err: Error) => {
           throw new FetchError(url, `not a usable image: ${err.message}`, { attempts: got.attempts });
         });
         if (Math.abs(size.width - piece.expectWidth) > piece.tolerance || Math.abs(size.height - piece.expectHeight) > piece.tolerance) {
           throw new FetchError(url, `the server returned ${size.width}×${size.height} for a ${piece.expectWidth}×${piece.expectHeight} request (a size limit applied silently, or a wrong scale)`, { attempts: got.attempts, status: 200 });
         }
-        outcome.set(url, { ok: { url, sha256: got.facts.sha256, fromCache: got.fromCache, width: size.width, height: size.height } });
+        outcome.set(url, { ok: { url: got.facts.url, sha256: got.facts.sha256, fromCache: got.fromCache, width: size.width, height: size.height } });
       } catch (err) {
         const fe = err instanceof FetchError ? err : new FetchError(url, (err as Error).message, { attempts: 0 });
         outcome.set(url, { error: { stage: 'crop', key: '', url: fe.url, ...(fe.status !== undefined ? { status: fe.status } : {}), attempts: fe.attempts, reason: fe.reason } });

@@ -4,6 +4,8 @@ import type { ComplianceLevel, ImageApiVersion } from '../iiif/image-service.ts'
 /** One image request whose decoded result is placed into the crop's mosaic. */
 export interface Piece {
   url: string;
+  /** Another spelling of the same request, tried when `url` answers 404 (static pyramids differ on `full`). */
+  fallbackUrl?: string;
   /** Where the piece goes in the mosaic, and the size it is resized to (mosaic pixels). */
   left: number;
   top: number;

@@ -30,13 +30,16 @@ export interface TileRef {
   width: number;
   height: number;
   url: string;
+  /** The `x,y,w,h` spelling when `url` uses `full`. */
+  fallbackUrl?: string;
 }
 
 /**
  * The tiles at scale factor `sf` that cover an image region, with their URLs
  * (Image API 3.0 implementation notes §3): xr = n·tw·s, wr = min(tw·s, W − xr),
- * ws = ceil(wr / s). The region is always written `x,y,w,h` (never `full`),
- * as static tile pyramids name their files that way; size is `w,h` for 3.0 and `w,` for 2.1.
+ * ws = ceil(wr / s). A tile covering the whole image is written `full`, the
+ * canonical form (§4.8), with the `x,y,w,h` spelling kept as a fallback because
+ * some static pyramids store only that one; size is `w,h` for 3.0 and `w,` for 2.1.
  */
 export function tilesCovering(service: ImageService, tile: TileSpec, sf: number, region: Rect, format = 'jpg'): TileRef[] {
   const spanW = tile.width * sf, spanH = tile.height * sf;
@@ -49,13 +52,12 @@ export function tilesCovering(service: ImageService, tile: TileSpec, sf: number,
       if (xr >= service.width || yr >= service.height) continue;
       const wr = Math.min(spanW, service.width - xr), hr = Math.min(spanH, service.height - yr);
       const ws = Math.ceil(wr / sf), hs = Math.ceil(hr / sf);
-      const url = imageRequestUrl(service.base, service.version, {
-        region: { x: xr, y: yr, w: wr, h: hr },
-        size: service.version === 3 ? { kind: 'wh', width: ws, height: hs } : { kind: 'w', width: ws },
-        quality: 'default',
-        format,
-      });
-      out.push({ col, row, region: { x: xr, y: yr, w: wr, h: hr }, width: ws, height: hs, url });
+      const size = service.version === 3 ? { kind: 'wh' as const, width: ws, height: hs } : { kind: 'w' as const, width: ws };
+      const region = { x: xr, y: yr, w: wr, h: hr };
+      const spelled = imageRequestUrl(service.base, service.version, { region, size, quality: 'default', format });
+      const whole = xr === 0 && yr === 0 && wr === service.width && hr === service.height;
+      const url = whole ? imageRequestUrl(service.base, service.version, { region: 'full', size, quality: 'default', format }) : spelled;
+      out.push({ col, row, region, width: ws, height: hs, url, ...(whole ? { fallbackUrl: spelled } : {}) });
     }
   }
   return out;

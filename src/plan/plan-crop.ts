@@ -143,6 +143,7 @@ function fromLevel0(service: ImageService, box: Rect, region: Rect, k: number, f
     const oy = Math.min(...tiles.map((t) => t.region.y / sf));
     const pieces: Piece[] = tiles.map((t) => ({
       url: t.url,
+      ...(t.fallbackUrl ? { fallbackUrl: t.fallbackUrl } : {}),
       left: t.region.x / sf - ox, top: t.region.y / sf - oy, width: t.width, height: t.height,
       expectWidth: t.width, expectHeight: t.height, tolerance: 1,
     }));

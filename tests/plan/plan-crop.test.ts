@@ -142,3 +142,13 @@ describe('output size rounding', () => {
     expect(resolveScale({ pixelsPerMm: 10 }, p, {})).toBeUndefined();
   });
 });
+
+describe('whole-image tiles', () => {
+  it('uses the canonical full region for a tile covering the whole image (check value 9: s=16 → full/375,250)', () => {
+    const tiles = tilesCovering(level0, level0.tiles[0], 16, { x: 0, y: 0, w: 10, h: 10 });
+    expect(tiles.map((t) => [t.url, t.fallbackUrl])).toEqual([[
+      'https://iiif.example.org/iiif/3/board-07/full/375,250/0/default.jpg',
+      'https://iiif.example.org/iiif/3/board-07/0,0,6000,4000/375,250/0/default.jpg',
+    ]]);
+  });
+});

@@ -1,0 +1,164 @@
+import type { DatasetPlan } from '../plan/plan-dataset.ts';
+import type { Recipe } from '../recipe/types.ts';
+import type { FailureRecord } from '../harvest/harvest.ts';
+import type { NearDuplicatePair } from '../split/near-duplicates.ts';
+import { SPLITS, SplitAssignment, SplitName } from '../split/assign.ts';
+import { byString } from '../util/hash.ts';
+import type { IndexRecord } from './records.ts';
+
+export interface CardInputs {
+  recipe: Recipe;
+  /** The recipe with defaults filled and local paths relative to its folder. */
+  recipeShown: unknown;
+  records: readonly IndexRecord[];
+  plan: DatasetPlan;
+  failures: readonly FailureRecord[];
+  pairs: readonly NearDuplicatePair[];
+  mergedGroups: number;
+  assignment: SplitAssignment;
+  sources: { location: string; kind: string; sha256: string }[];
+  tool: { name: string; version: string; sharp: string; libvips: string; node: string };
+  droppedPatches: number;
+}
+
+const count = <T>(items: readonly T[], key: (t: T) => string): Record<string, number> => {
+  const out: Record<string, number> = {};
+  for (const it of items) out[key(it)] = (out[key(it)] ?? 0) + 1;
+  return sortKeys(out);
+};
+
+function sortKeys<T>(o: Record<string, T>): Record<string, T> {
+  return Object.fromEntries(Object.entries(o).sort((a, b) => byString(a[0], b[0])));
+}
+
+/** The card's facts for programs. Every number here is counted from the records, the plan or the failures. */
+export function buildCard(i: CardInputs) {
+  const classes = [...Object.keys(i.recipe.labels), ...(i.plan.negatives.wanted > 0 ? [i.recipe.negatives.label] : [])].sort(byString);
+  const perSplit: Record<string, Record<string, number>> = {};
+  for (const s of SPLITS) perSplit[s] = Object.fromEntries(classes.map((c) => [c, i.records.filter((r) => r.split === s && r.label === c).length]));
+  const realised: Record<string, Record<SplitName, number>> = {};
+  for (const c of classes) {
+    const total = i.records.filter((r) => r.label === c).length;
+    realised[c] = Object.fromEntries(SPLITS.map((s) => [s, total ? Math.round((perSplit[s][c] / total) * 1e4) / 1e4 : 0])) as Record<SplitName, number>;
+  }
+  const perSource: Record<string, Record<string, number>> = {};
+  for (const r of i.records) {
+    perSource[r.manifest] ??= {};
+    perSource[r.manifest][r.label] = (perSource[r.manifest][r.label] ?? 0) + 1;
+  }
+  const services = new Map<string, { id: string; version: number; level: number; patches: number }>();
+  for (const r of i.records) {
+    const s = services.get(r.service.id) ?? { ...r.service, patches: 0 };
+    s.patches++;
+    services.set(r.service.id, s);
+  }
+  const groups = new Set(i.records.map((r) => r.group));
+  return {
+    name: i.recipe.name,
+    motivation: i.recipe.description,
+    composition: {
+      patches: i.records.length,
+      classes,
+      perSplit,
+      realisedFractions: realised,
+      targetFractions: i.recipe.split.fractions,
+      perSource: sortKeys(Object.fromEntries(Object.entries(perSource).map(([k, v]) => [k, sortKeys(v)]))),
+      rights: count(i.records, (r) => r.rights ?? '(none)'),
+      regions: { planned: i.plan.regions.length, skipped: count(i.plan.skipped, (s) => s.reason) },
+      negatives: i.plan.negatives,
+      nearDuplicates: { pairs: i.pairs.length, mergedGroups: i.mergedGroups, examples: i.pairs.slice(0, 20) },
+      groups: { count: groups.size, groupBy: i.recipe.split.groupBy },
+      splitPolicy: {
+        rule: 'stable: each group goes where hash(seed, group) sends it; a class missing from a split is repaired by moving the fewest groups, and those moves are listed',
+        moves: i.assignment.moves,
+        unrepairable: i.assignment.unrepairable,
+      },
+      rightsExcluded: i.plan.rightsExcluded,
+      failures: { count: i.failures.length, byStage: count(i.failures, (f) => f.stage), droppedPatches: i.droppedPatches },
+    },
+    collection: {
+      tool: i.tool,
+      seed: i.recipe.seed,
+      scale: i.recipe.scale,
+      patch: i.recipe.patch,
+      request: i.recipe.request,
+      services: [...services.values()].sort((a, b) => byString(a.id, b.id)),
+      crops: i.plan.crops.length,
+      requests: new Set(i.plan.crops.flatMap((c) => c.stitch.pieces.map((p) => p.url))).size,
+      sources: i.sources,
+      recipe: i.recipeShown,
+    },
+    preprocessing: [
+      'Crops are requested at a fixed scale in output pixels per canvas unit, on a grid anchored at the canvas origin.',
+      'Pieces are decoded to 8-bit sRGB, resampled (Lanczos-3) only where the plan says so, stitched by exact pixel copies, and cut into square patches.',
+      `Positives: patches with at least ${i.recipe.patch.minCoverage * 100}% of their pixels inside the region (pixel-centre rule).`,
+      `Negatives: patches labelled "${i.recipe.negatives.label}" at seeded positions at least ${i.recipe.negatives.margin} px from every annotated area.`,
+      'Patches are PNG, fixed encoder settings, no metadata.',
+      'Near-duplicates: 64-bit difference hashes of textured patches within the recipe distance join their groups before splitting.',
+    ],
+    uses: [
+      'Training and evaluating models that recognise painted materials at a fixed physical or canvas scale.',
+      'Not a survey of any collection: regions are what annotators chose to mark.',
+      'Flat or near-uniform patches carry little texture; negatives come from the same pictures as positives.',
+    ],
+    distribution: {
+      attribution: 'ATTRIBUTION.md lists each source\'s required statement; every index record carries rights and required statement.',
+      caution: 'Rights statements are copied from the sources. This is help, not legal advice: each institution\'s terms and the law where you work decide what use is allowed.',
+    },
+    maintenance: {
+      rerun: 'swatchbook run <recipe> rebuilds from the cache and the lock; --frozen refuses anything the lock does not name.',
+      verify: 'swatchbook verify <recipe> rebuilds and compares every file by sha256; --refetch asks the servers again and reports drift.',
+    },
+  };
+}
+
+export type Card = ReturnType<typeof buildCard>;
+
+/** The card for people, in the sections of Datasheets for Datasets (Gebru et al.). */
+export function renderCardMarkdown(card: Card): string {
+  const c = card.composition;
+  const lines: string[] = [];
+  const table = (head: string[], rows: (string | number)[][]) => {
+    lines.push(`| ${head.join(' | ')} |`, `|${head.map(() => '---').join('|')}|`);
+    for (const r of rows) lines.push(`| ${r.join(' | ')} |`);
+    lines.push('');
+  };
+  lines.push(`# Dataset card: ${card.name}`, '');
+  lines.push('## Motivation', '', card.motivation || '(the recipe gives no description)', '');
+  lines.push('## Composition', '', `${c.patches} patches in ${c.classes.length} classes, ${c.groups.count} groups (grouped by ${c.groups.groupBy}).`, '');
+  table(['class', ...SPLITS, 'total'], c.classes.map((cls) => {
+    const n = SPLITS.map((s) => c.perSplit[s][cls]);
+    return [cls, ...n, n.reduce((a, b) => a + b, 0)];
+  }));
+  lines.push('Realised share of each class per split (target ' + SPLITS.map((s) => `${s} ${c.targetFractions[s]}`).join(', ') + '):', '');
+  table(['class', ...SPLITS], c.classes.map((cls) => [cls, ...SPLITS.map((s) => c.realisedFractions[cls][s])]));
+  lines.push('Patches per source manifest:', '');
+  table(['manifest', 'patches'], Object.entries(c.perSource).map(([m, v]) => [m, Object.entries(v).map(([k, n]) => `${k} ${n}`).join(', ')]));
+  lines.push('Rights of the patches:', '');
+  table(['rights', 'patches'], Object.entries(c.rights));
+  lines.push(`Regions planned: ${c.regions.planned}. Skipped: ${Object.entries(c.regions.skipped).map(([k, n]) => `${k} ${n}`).join(', ') || 'none'}.`, '');
+  lines.push(`Negatives: wanted ${c.negatives.wanted}, planned ${c.negatives.planned}, borrowed from other canvases of the same group ${c.negatives.borrowedWithinGroup}, short by ${c.negatives.shortfall}.`, '');
+  lines.push(`Near-duplicates across groups: ${c.nearDuplicates.pairs} pairs; ${c.nearDuplicates.mergedGroups} groups merged into others before splitting.`, '');
+  lines.push(`Split policy: ${c.splitPolicy.rule}.`);
+  if (c.splitPolicy.moves.length) for (const m of c.splitPolicy.moves) lines.push(`- moved ${m.group} from ${m.from} to ${m.to}: ${m.because}`);
+  if (c.splitPolicy.unrepairable.length) for (const u of c.splitPolicy.unrepairable) lines.push(`- class ${u.label} has ${u.groups} group(s), too few for every split; absent from ${u.missing.join(', ')} (stability kept)`);
+  lines.push('');
+  if (c.rightsExcluded.length) {
+    lines.push('Excluded by the rights filter:', '');
+    table(['manifest', 'rights'], c.rightsExcluded.map((r) => [r.manifestId, r.rights]));
+  }
+  lines.push(`Failures: ${c.failures.count} (${Object.entries(c.failures.byStage).map(([k, n]) => `${k} ${n}`).join(', ') || 'none'}); patches dropped with them: ${c.failures.droppedPatches}. See failures.jsonl.`, '');
+  const col = card.collection;
+  lines.push('## Collection process', '');
+  lines.push(`Made by ${col.tool.name} ${col.tool.version} (sharp ${col.tool.sharp}, libvips ${col.tool.libvips}, Node.js ${col.tool.node}) with seed \`${col.seed}\`.`, '');
+  lines.push(`Scale: \`${JSON.stringify(col.scale)}\`. Patches: \`${JSON.stringify(col.patch)}\`. Requests: \`${JSON.stringify(col.request)}\`.`, '');
+  lines.push(`${col.crops} crops from ${col.requests} distinct image requests.`, '');
+  table(['image service', 'Image API', 'level', 'patches'], col.services.map((s) => [s.id, s.version, s.level, s.patches]));
+  lines.push('Source documents:', '');
+  table(['kind', 'location', 'sha256'], col.sources.map((s) => [s.kind, s.location, s.sha256.slice(0, 16)]));
+  lines.push('## Preprocessing', '', ...card.preprocessing.map((p) => `- ${p}`), '');
+  lines.push('## Uses', '', ...card.uses.map((p) => `- ${p}`), '');
+  lines.push('## Distribution', '', card.distribution.attribution, '', card.distribution.caution, '');
+  lines.push('## Maintenance', '', `- ${card.maintenance.rerun}`, `- ${card.maintenance.verify}`, '');
+  return lines.join('\n');
+}

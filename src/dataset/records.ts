@@ -1,0 +1,40 @@
+import type { Rect } from '../geometry/rect.ts';
+import type { SplitName } from '../split/assign.ts';
+
+/** One line of index.jsonl: a patch and its provenance. Keys are written in this order. */
+export interface IndexRecord {
+  id: string;
+  split: SplitName;
+  label: string;
+  kind: 'positive' | 'negative';
+  file: string;
+  sha256: string;
+  /** 64-bit difference hash, 16 hex digits. */
+  phash: string;
+  coverage: number;
+  group: string;
+  manifest: string;
+  collections: string[];
+  canvas: string;
+  annotation: string | null;
+  annotator: string | null;
+  sourceLabel: string | null;
+  service: { id: string; version: number; level: number };
+  requests: string[];
+  responses: { url: string; sha256: string }[];
+  canvasRegion: Rect;
+  imageRegion: Rect;
+  scale: { pixelsPerCanvasUnit: number; basis: string; mmPerCanvasUnit: number | null };
+  crop: string;
+  rights: string | null;
+  requiredStatement: { label: string; value: string } | null;
+  provider: string[];
+}
+
+export function serialiseIndex(records: readonly IndexRecord[]): string {
+  return records.map((r) => JSON.stringify(r)).join('\n') + (records.length ? '\n' : '');
+}
+
+export function parseIndex(text: string): IndexRecord[] {
+  return text.split('\n').filter((l) => l.trim() !== '').map((l) => JSON.parse(l) as IndexRecord);
+}

@@ -1,0 +1,111 @@
+import type { RgbImage } from '../harvest/pixels.ts';
+import type { Point } from '../geometry/rect.ts';
+import { pointInShape, Shape } from '../geometry/shape.ts';
+import { latticeHash } from './noise.ts';
+import { Material, materialColour } from './textures.ts';
+
+/** How a board is served in the demo. */
+export type Flavour = 'image3' | 'image2' | 'static0';
+
+export interface BoardRegion {
+  material: Exclude<Material, 'ground'>;
+  /** In image pixels. */
+  shape: Shape;
+  annotator: 'annotator-a' | 'annotator-b';
+}
+
+export interface Board {
+  slug: string;
+  title: string;
+  width: number;
+  height: number;
+  /** Canvas units per image pixel (0.5: the canvas is half the image size). */
+  canvasPerPixel: number;
+  /** Millimetres per image pixel of the physical board. */
+  mmPerPixel: number;
+  seed: number;
+  flavour: Flavour;
+  regions: BoardRegion[];
+  cabinet: string;
+  /** Another board whose pixels this one repeats (a copy served by a second archive). */
+  copyOf?: string;
+}
+
+/** The words each invented annotator uses; the recipe's label map joins them. */
+export const ANNOTATOR_WORDS: Record<BoardRegion['annotator'], Record<BoardRegion['material'], string>> = {
+  'annotator-a': { graining: 'faux oak', marbling: 'faux marble', gilding: 'gold leaf' },
+  'annotator-b': { graining: 'wood graining', marbling: 'marbling', gilding: 'gilding' },
+};
+
+const MATERIALS: BoardRegion['material'][] = ['graining', 'marbling', 'gilding'];
+
+/**
+ * The invented sample boards of a fictional decorative-painting workshop:
+ * 27 boards in three cabinets, of different sizes, each with two to four painted
+ * samples (rectangles and polygons). One board of the third cabinet is a copy
+ * of a board of the first, as if a second archive served the same picture.
+ */
+export function demoBoards(): Board[] {
+  const boards: Board[] = [];
+  const cabinets = ['east-cabinet', 'west-cabinet', 'loan-cabinet'];
+  for (let i = 0; i < 27; i++) {
+    const r = (k: number) => latticeHash(i, k, 424242);
+    const cabinet = cabinets[Math.floor(i / 9)];
+    const width = 720 + Math.floor(r(1) * 8) * 60;
+    const height = 540 + Math.floor(r(2) * 6) * 60;
+    const flavour: Flavour = i % 9 === 4 ? 'static0' : i % 9 === 7 ? 'image2' : 'image3';
+    const regions: BoardRegion[] = [];
+    const n = 2 + Math.floor(r(3) * 3);
+    const cellW = Math.floor(width / 2), cellH = Math.floor(height / 2);
+    for (let k = 0; k < n; k++) {
+      const cx = (k % 2) * cellW, cy = Math.floor(k / 2) * cellH;
+      const pad = 30 + Math.floor(r(10 + k) * 20);
+      const x0 = cx + pad, y0 = cy + pad, x1 = cx + cellW - pad, y1 = cy + cellH - pad;
+      const material = MATERIALS[(i + k) % 3];
+      const polygon = r(20 + k) < 0.4;
+      const shape: Shape = polygon
+        ? { kind: 'polygon', rings: [[{ x: x0, y: y1 }, { x: x0 + (x1 - x0) * 0.15, y: y0 }, { x: x1, y: y0 + (y1 - y0) * 0.1 }, { x: x1 - (x1 - x0) * 0.1, y: y1 }] as Point[]] }
+        : { kind: 'rect', rect: { x: x0, y: y0, w: x1 - x0, h: y1 - y0 } };
+      regions.push({ material, shape, annotator: (i + k) % 2 === 0 ? 'annotator-a' : 'annotator-b' });
+    }
+    boards.push({
+      slug: `board-${String(i + 1).padStart(2, '0')}`,
+      title: `Sample board ${i + 1}`,
+      width,
+      height,
+      canvasPerPixel: i % 3 === 0 ? 0.5 : 1,
+      mmPerPixel: 0.25,
+      seed: 1000 + i,
+      flavour,
+      regions,
+      cabinet,
+    });
+  }
+  // The loan cabinet's last board repeats board-02 pixel for pixel, served as Image API 2.
+  const original = boards[1];
+  const copy = boards[26];
+  boards[26] = { ...original, slug: copy.slug, title: `${original.title} (loan copy)`, cabinet: copy.cabinet, flavour: 'image2', copyOf: original.slug };
+  return boards;
+}
+
+/** Paints a board: ground, then each region's material inside its shape. */
+export function renderBoard(board: Board): RgbImage {
+  const data = Buffer.alloc(board.width * board.height * 3);
+  for (let y = 0; y < board.height; y++) {
+    for (let x = 0; x < board.width; x++) {
+      let m: Material = 'ground';
+      for (const region of board.regions) {
+        if (pointInShape(region.shape, x + 0.5, y + 0.5)) {
+          m = region.material;
+          break;
+        }
+      }
+      const c = materialColour(m, x, y, board.seed);
+      const i = (y * board.width + x) * 3;
+      data[i] = c[0];
+      data[i + 1] = c[1];
+      data[i + 2] = c[2];
+    }
+  }
+  return { width: board.width, height: board.height, data };
+}

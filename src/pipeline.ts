@@ -1,0 +1,170 @@
+import { mkdir, readdir, readFile, appendFile, rm } from 'node:fs/promises';
+import { dirname, join, relative } from 'node:path';
+import { FetchError, UsageError } from './errors.ts';
+import { ContentCache } from './net/cache.ts';
+import { Fetcher, FetchEvent, FetchMode } from './net/fetcher.ts';
+import { lockFrom, readLock, writeLock, LockFile } from './net/lock.ts';
+import { DEFAULT_RETRY_POLICY } from './net/retry-policy.ts';
+import { harvestCrops, HarvestResult } from './harvest/harvest.ts';
+import { planDataset, DatasetPlan } from './plan/plan-dataset.ts';
+import type { Recipe } from './recipe/types.ts';
+import { resolveSources, ResolvedSources } from './sources/resolve.ts';
+import { buildDataset, BuildOptions, BuildSummary } from './dataset/build.ts';
+import { sha256Hex } from './util/hash.ts';
+
+export interface RunOptions {
+  cacheDir?: string;
+  mode?: FetchMode;
+  concurrency?: number;
+  onEvent?: (e: FetchEvent) => void;
+  warn?: (message: string) => void;
+  onProgress?: BuildOptions['onProgress'];
+  /** Injected clock for tests. */
+  sleep?: (ms: number) => Promise<void>;
+}
+
+export function defaultCacheDir(recipe: Recipe): string {
+  return join(dirname(recipe.file), '.swatchbook-cache');
+}
+
+/** The lock file that sits beside the recipe: `<name>.lock.json`. */
+export function lockPathFor(recipe: Recipe): string {
+  return join(dirname(recipe.file), `${recipe.name}.lock.json`);
+}
+
+export async function openFetcher(recipe: Recipe, opts: RunOptions): Promise<Fetcher> {
+  const mode = opts.mode ?? 'online';
+  let lock: LockFile | undefined;
+  if (mode === 'frozen') {
+    lock = await readLock(lockPathFor(recipe));
+    if (!lock) throw new UsageError(`--frozen needs the lock file ${lockPathFor(recipe)}; run once without --frozen to write it`);
+  }
+  const n = recipe.network;
+  return new Fetcher({
+    cache: new ContentCache(opts.cacheDir ?? defaultCacheDir(recipe)),
+    mode,
+    ...(lock ? { lock } : {}),
+    concurrency: opts.concurrency ?? n.concurrency,
+    perHost: n.perHost,
+    perHostRate: n.perHostRate,
+    timeoutMs: n.timeoutMs,
+    retry: { ...DEFAULT_RETRY_POLICY, retries: n.retries, seed: recipe.seed },
+    ...(n.contact ? { contact: n.contact } : {}),
+    ...(n.allowHosts ? { allowHosts: n.allowHosts } : {}),
+    ...(opts.onEvent ? { onEvent: opts.onEvent } : {}),
+    ...(opts.warn ? { warn: opts.warn } : {}),
+    ...(opts.sleep ? { sleep: opts.sleep } : {}),
+  });
+}
+
+export interface Planned {
+  sources: ResolvedSources;
+  plan: DatasetPlan;
+  fetcher: Fetcher;
+}
+
+/** Resolves sources (fetching manifests, annotations and info.json) and plans crops and patches. */
+export async function planRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned> {
+  const fetcher = await openFetcher(recipe, opts);
+  const sources = await resolveSources(recipe.sources, fetcher);
+  return { sources, plan: planDataset(recipe, sources), fetcher };
+}
+
+/** Plans, then fetches every crop piece into the cache, and writes the lock beside the recipe. */
+export async function harvestRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { harvest: HarvestResult }> {
+  const planned = await planRecipe(recipe, opts);
+  const harvest = await harvestCrops(planned.plan.crops, planned.fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
+  if ((opts.mode ?? 'online') !== 'frozen') await writeLock(lockPathFor(recipe), lockFrom(planned.fetcher.used.values()));
+  await logRun(recipe, opts, 'harvest', harvest.summary);
+  return { ...planned, harvest };
+}
+
+/** Plans, harvests and builds the dataset folder. */
+export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { build: BuildSummary }> {
+  const planned = await planRecipe(recipe, opts);
+  const build = await buildDataset(recipe, planned.sources, planned.plan, planned.fetcher, { ...(opts.onProgress ? { onProgress: opts.onProgress } : {}) });
+  if ((opts.mode ?? 'online') !== 'frozen') await writeLock(lockPathFor(recipe), lockFrom(planned.fetcher.used.values()));
+  await logRun(recipe, opts, 'build', build);
+  return { ...planned, build };
+}
+
+/** Appends a line with wall-clock times to the run log in the cache (kept out of the hashed dataset). */
+async function logRun(recipe: Recipe, opts: RunOptions, step: string, summary: unknown): Promise<void> {
+  const dir = join(opts.cacheDir ?? defaultCacheDir(recipe), 'runs');
+  await mkdir(dir, { recursive: true });
+  await appendFile(join(dir, `${recipe.name}.jsonl`), `${JSON.stringify({ at: new Date().toISOString(), step, summary })}\n`);
+}
+
+/** sha256 of every file below a folder, by relative path. */
+export async function hashTree(dir: string): Promise<Map<string, string>> {
+  const out = new Map<string, string>();
+  const walk = async (d: string) => {
+    for (const e of await readdir(d, { withFileTypes: true })) {
+      const p = join(d, e.name);
+      if (e.isDirectory()) await walk(p);
+      else out.set(relative(dir, p).split('\\').join('/'), sha256Hex(await readFile(p)));
+    }
+  };
+  await walk(dir);
+  return new Map([...out.entries()].sort((a, b) => (a[0] < b[0] ? -1 : 1)));
+}
+
+export interface VerifyReport {
+  identical: boolean;
+  files: number;
+  differing: { file: string; expected?: string; actual?: string }[];
+}
+
+/** Rebuilds from the cache only into a scratch folder and compares every file with the existing dataset. */
+export async function verifyRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<VerifyReport> {
+  let existing: Map<string, string>;
+  try {
+    existing = await hashTree(recipe.output);
+  } catch {
+    throw new UsageError(`there is no dataset at ${recipe.output} to verify; build it first`);
+  }
+  const scratch = `${recipe.output}.verify-${process.pid}`;
+  try {
+    await runRecipe({ ...recipe, output: scratch }, { ...opts, mode: 'offline' });
+    const rebuilt = await hashTree(scratch);
+    const differing: VerifyReport['differing'] = [];
+    for (const file of new Set([...existing.keys(), ...rebuilt.keys()])) {
+      if (existing.get(file) !== rebuilt.get(file)) differing.push({ file, ...(existing.has(file) ? { expected: existing.get(file) } : {}), ...(rebuilt.has(file) ? { actual: rebuilt.get(file) } : {}) });
+    }
+    differing.sort((a, b) => (a.file < b.file ? -1 : 1));
+    return { identical: differing.length === 0, files: existing.size, differing };
+  } finally {
+    await rm(scratch, { recursive: true, force: true });
+  }
+}
+
+export interface DriftReport {
+  checked: number;
+  changed: { url: string; kind: 'manifest' | 'info' | 'image' | 'other'; locked: string; now: string }[];
+  unreachable: { url: string; reason: string }[];
+}
+
+/** Asks the servers again for every locked URL (politely) and reports which bodies changed. Never touches the dataset. */
+export async function refetchDrift(recipe: Recipe, opts: RunOptions = {}): Promise<DriftReport> {
+  const lock = await readLock(lockPathFor(recipe));
+  if (!lock) throw new UsageError(`no lock file at ${lockPathFor(recipe)}; nothing to compare with`);
+  const fetcher = await openFetcher(recipe, { ...opts, mode: 'refresh' });
+  const report: DriftReport = { checked: 0, changed: [], unreachable: [] };
+  const urls = Object.keys(lock.entries).sort();
+  await Promise.all(
+    urls.map(async (url) => {
+      const entry = lock.entries[url];
+      const kind = /\/info\.json$/.test(url) ? 'info' : entry.contentType.startsWith('image/') ? 'image' : /json/.test(entry.contentType) ? 'manifest' : 'other';
+      try {
+        const got = await fetcher.get(url, kind === 'image' ? 'image' : 'json');
+        report.checked++;
+        if (got.facts.sha256 !== entry.sha256) report.changed.push({ url, kind, locked: entry.sha256, now: got.facts.sha256 });
+      } catch (err) {
+        report.unreachable.push({ url, reason: err instanceof FetchError ? err.reason : (err as Error).message });
+      }
+    }),
+  );
+  report.changed.sort((a, b) => (a.url < b.url ? -1 : 1));
+  report.unreachable.sort((a, b) => (a.url < b.url ? -1 : 1));
+  return report;
+}
