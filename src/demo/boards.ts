@@ -41,7 +41,7 @@ const MATERIALS: BoardRegion['material'][] = ['graining', 'marbling', 'gilding']
 
 /**
  * The invented sample boards of a fictional decorative-painting workshop:
- * 27 boards in three cabinets, of different sizes, each with two to four painted
+ * 27 boards in three cabinets, of different sizes, each with two or three painted
  * samples (rectangles and polygons). One board of the third cabinet is a copy
  * of a board of the first, as if a second archive served the same picture.
  */
@@ -55,7 +55,7 @@ export function demoBoards(): Board[] {
     const height = 540 + Math.floor(r(2) * 6) * 60;
     const flavour: Flavour = i % 9 === 4 ? 'static0' : i % 9 === 7 ? 'image2' : 'image3';
     const regions: BoardRegion[] = [];
-    const n = 2 + Math.floor(r(3) * 3);
+    const n = 2 + Math.floor(r(3) * 2);
     const cellW = Math.floor(width / 2), cellH = Math.floor(height / 2);
     for (let k = 0; k < n; k++) {
       const cx = (k % 2) * cellW, cy = Math.floor(k / 2) * cellH;
