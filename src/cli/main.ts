@@ -1,5 +1,234 @@
-/** Placeholder until the CLI issue lands: tells the user plainly what exists. */
-export async function main(_argv: string[]): Promise<number> {
-  process.stderr.write('swatchbook: the command line is not built yet; see README.md for the status.\n');
-  return 2;
+import { Command, CommanderError, Option } from 'commander';
+import { mkdir, writeFile, access } from 'node:fs/promises';
+import { join, resolve } from 'node:path';
+import { SwatchbookError, UsageError, redactUrl } from '../errors.ts';
+import { loadRecipe } from '../recipe/load.ts';
+import type { Recipe } from '../recipe/types.ts';
+import { harvestRecipe, planRecipe, refetchDrift, runRecipe, verifyRecipe, RunOptions } from '../pipeline.ts';
+import { tracePatch, renderTrace } from '../dataset/trace.ts';
+import { recipeReferenceMarkdown } from '../recipe/schema-doc.ts';
+import { runDemo, DEFAULT_DEMO_PORT } from '../demo/run-demo.ts';
+import { VERSION } from '../version.ts';
+import { Reporter } from './reporter.ts';
+import type { FetchMode } from '../net/fetcher.ts';
+
+interface Shared {
+  out?: string;
+  cache?: string;
+  concurrency?: string;
+  offline?: boolean;
+  frozen?: boolean;
+  json?: boolean;
+  quiet?: boolean;
+  debug?: boolean;
+}
+
+function shared(cmd: Command): Command {
+  return cmd
+    .option('--out <dir>', 'dataset folder (overrides the recipe\'s output)')
+    .option('--cache <dir>', 'cache folder (default: .swatchbook-cache beside the recipe)')
+    .option('--concurrency <n>', 'requests in flight in all (overrides network.concurrency)')
+    .option('--offline', 'use the cache only; never contact a server')
+    .option('--frozen', 'allow only requests in the lock file, and only bodies with the locked hashes')
+    .option('--json', 'print a machine-readable summary on stdout')
+    .option('--quiet', 'print nothing but errors')
+    .option('--debug', 'show stack traces of unexpected errors');
+}
+
+function modeOf(o: Shared): FetchMode {
+  if (o.offline && o.frozen) throw new UsageError('--offline and --frozen cannot be combined');
+  return o.frozen ? 'frozen' : o.offline ? 'offline' : 'online';
+}
+
+async function recipeWith(path: string, o: Shared): Promise<Recipe> {
+  const r = await loadRecipe(path);
+  return o.out ? { ...r, output: resolve(o.out) } : r;
+}
+
+function runOptions(o: Shared, rep: Reporter, mode?: FetchMode): RunOptions {
+  let concurrency: number | undefined;
+  if (o.concurrency !== undefined) {
+    concurrency = Number(o.concurrency);
+    if (!Number.isInteger(concurrency) || concurrency < 1 || concurrency > 64) throw new UsageError(`--concurrency must be a whole number from 1 to 64, got ${JSON.stringify(o.concurrency)}`);
+  }
+  return {
+    ...(o.cache ? { cacheDir: resolve(o.cache) } : {}),
+    mode: mode ?? modeOf(o),
+    ...(concurrency ? { concurrency } : {}),
+    warn: (m) => rep.warn(m),
+    onProgress: (stage, done, total) => rep.progress(stage, done, total),
+  };
+}
+
+/** Runs the command line; returns the exit code (0 all served, 1 failures recorded, 2 bad input or usage). */
+export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; stderr?: NodeJS.WriteStream } = {}): Promise<number> {
+  const stdout = io.stdout ?? process.stdout;
+  const stderr = io.stderr ?? process.stderr;
+  let exitCode = 0;
+  let debug = argv.includes('--debug');
+  const print = (o: Shared, human: string, machine: unknown) => {
+    if (o.json) stdout.write(`${JSON.stringify(machine, null, 2)}\n`);
+    else if (!o.quiet) stdout.write(`${human}\n`);
+  };
+
+  const program = new Command('swatchbook')
+    .description('IIIF images and region annotations → fixed-scale texture-patch datasets')
+    .version(VERSION)
+    .exitOverride()
+    .configureOutput({ writeOut: (s) => stdout.write(s), writeErr: (s) => stderr.write(s) })
+    .showHelpAfterError('(run swatchbook --help for the commands)');
+
+  program.command('init [dir]').description('write a starter recipe, and RECIPE.md explaining every field')
+    .option('--force', 'overwrite an existing recipe.json')
+    .action(async (dir: string | undefined, o: { force?: boolean }) => {
+      const folder = resolve(dir ?? '.');
+      await mkdir(folder, { recursive: true });
+      const file = join(folder, 'recipe.json');
+      if (!o.force && (await access(file).then(() => true, () => false))) throw new UsageError(`${file} exists; use --force to overwrite it`);
+      const starter = {
+        name: 'my-materials',
+        description: 'What this dataset is for, in a sentence or two.',
+        seed: 'my-materials-1',
+        sources: [{ manifest: 'https://iiif.example.org/manifests/board.json' }],
+        labels: { graining: ['faux oak', 'wood graining'], marbling: ['faux marble', 'marbling'] },
+        scale: { pixelsPerMm: 4 },
+        patch: { size: 128, stride: 128, minCoverage: 0.9 },
+        negatives: { ratio: 1, margin: 16, label: 'background' },
+        split: { fractions: { train: 0.8, val: 0.1, test: 0.1 }, groupBy: 'canvas' },
+        dedupe: { maxDistance: 4 },
+        request: { format: 'png' },
+        network: { contact: 'mailto:you@example.org', concurrency: 4, perHost: 2, perHostRate: 2, timeoutMs: 30000, retries: 4 },
+      };
+      await writeFile(file, `${JSON.stringify(starter, null, 2)}\n`);
+      await writeFile(join(folder, 'RECIPE.md'), `# Recipe fields\n\nEvery field of recipe.json, from the schema swatchbook validates against.\n\n${recipeReferenceMarkdown()}\n`);
+      stdout.write(`wrote ${file} and ${join(folder, 'RECIPE.md')}; edit the sources and labels, then run: swatchbook plan ${file}\n`);
+    });
+
+  shared(program.command('plan <recipe>').description('resolve sources and print what would be fetched, without fetching images'))
+    .action(async (path: string, o: Shared) => {
+      const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      const recipe = await recipeWith(path, o);
+      const { plan, sources } = await planRecipe(recipe, runOptions(o, rep));
+      const perClass: Record<string, number> = {};
+      for (const r of plan.regions) perClass[r.label] = (perClass[r.label] ?? 0) + 1;
+      const patchesPerClass: Record<string, number> = {};
+      for (const p of plan.patches) patchesPerClass[p.label] = (patchesPerClass[p.label] ?? 0) + 1;
+      const urls = new Set(plan.crops.flatMap((c) => c.stitch.pieces.map((p) => p.url)));
+      const pixels = [...new Map(plan.crops.flatMap((c) => c.stitch.pieces.map((p) => [p.url, p.expectWidth * p.expectHeight] as const))).values()].reduce((a, b) => a + b, 0);
+      // Estimate: 3 bytes per pixel compressed about 2:1 for PNG and 10:1 for JPEG (common practice).
+      const estimatedBytes = Math.round(pixels * 3 * (recipe.request.format === 'png' ? 0.5 : 0.1));
+      const servers = [...sources.services.values()].map((s) => ({ id: s.id, version: s.version, level: s.level, width: s.width, height: s.height })).sort((a, b) => (a.id < b.id ? -1 : 1));
+      const skipped: Record<string, number> = {};
+      for (const s of plan.skipped) skipped[s.reason] = (skipped[s.reason] ?? 0) + 1;
+      const summary = { manifests: sources.manifests.length, regionsPerClass: perClass, patchesPerClass, crops: plan.crops.length, requests: urls.size, estimatedBytes, servers, skipped, negatives: plan.negatives, failures: sources.failures };
+      const human = [
+        `${sources.manifests.length} manifest(s), ${plan.regions.length} region(s): ${Object.entries(perClass).map(([k, v]) => `${k} ${v}`).join(', ') || 'none'}`,
+        `patches planned: ${Object.entries(patchesPerClass).map(([k, v]) => `${k} ${v}`).join(', ') || 'none'}`,
+        `${plan.crops.length} crop(s) from ${urls.size} image request(s), about ${(estimatedBytes / 1e6).toFixed(1)} MB`,
+        ...servers.map((s) => `  ${redactUrl(s.id)}  Image API ${s.version} level ${s.level}  ${s.width}×${s.height}`),
+        ...(Object.keys(skipped).length ? [`skipped regions: ${Object.entries(skipped).map(([k, v]) => `${k} ${v}`).join(', ')}`] : []),
+        ...(sources.failures.length ? [`${sources.failures.length} source(s) could not be read: ${sources.failures.map((f) => `${f.url ?? f.key} (${f.reason})`).join('; ')}`] : []),
+      ].join('\n');
+      print(o, human, summary);
+      if (sources.failures.length) exitCode = 1;
+    });
+
+  shared(program.command('harvest <recipe>').description('fetch every crop into the cache and write the lock file'))
+    .action(async (path: string, o: Shared) => {
+      const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      const recipe = await recipeWith(path, o);
+      const { harvest, sources } = await harvestRecipe(recipe, runOptions(o, rep));
+      const s = harvest.summary;
+      const failures = [...sources.failures, ...harvest.failures];
+      print(o, `harvest: ${s.served} of ${s.crops} crops served (${s.fromCache} pieces from the cache, ${s.requests} requests, ${s.retries} retries, ${(s.bytes / 1e6).toFixed(2)} MB), ${failures.length} failure(s)`, { ...s, failures });
+      for (const f of failures) rep.warn(`${f.stage} ${f.url ?? f.key}: ${f.reason}`);
+      if (failures.length) exitCode = 1;
+    });
+
+  const buildLike = (name: string, description: string, defaultMode: FetchMode | undefined) =>
+    shared(program.command(`${name} <recipe>`).description(description)).action(async (path: string, o: Shared) => {
+      const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      const recipe = await recipeWith(path, o);
+      const mode = o.frozen || o.offline ? modeOf(o) : (defaultMode ?? 'online');
+      const { build } = await runRecipe(recipe, runOptions(o, rep, mode));
+      print(o, [
+        `${rep.bold(`${build.patches} patches`)} (train ${build.perSplit.train}, val ${build.perSplit.val}, test ${build.perSplit.test}) from ${build.crops} crops; ${build.nearDuplicatePairs} near-duplicate pair(s)`,
+        `fetch: ${build.harvest.requests} request(s), ${build.harvest.fromCache} from the cache, ${build.harvest.retries} retries`,
+        `dataset: ${build.out}  (card.md, index.jsonl, splits/, lock.json)`,
+        build.failures ? `${build.failures} failure(s): see ${join(build.out, 'failures.jsonl')}` : 'no failures',
+      ].join('\n'), build);
+      if (build.failures) exitCode = 1;
+    });
+  buildLike('build', 'cut patches from the cache and write the dataset (never contacts a server)', 'offline');
+  buildLike('run', 'plan, harvest and build in one go', undefined);
+
+  shared(program.command('verify <recipe>').description('rebuild from the cache and compare every file with the dataset; --refetch reports drift at the sources'))
+    .option('--refetch', 'ask the servers again (politely) and report which sources changed; never overwrites the dataset')
+    .action(async (path: string, o: Shared & { refetch?: boolean }) => {
+      const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      const recipe = await recipeWith(path, o);
+      if (o.refetch) {
+        const drift = await refetchDrift(recipe, runOptions(o, rep, 'refresh'));
+        print(o, [
+          `checked ${drift.checked} locked request(s): ${drift.changed.length} changed, ${drift.unreachable.length} unreachable`,
+          ...drift.changed.map((c) => `  changed ${c.kind}: ${c.url}`),
+          ...drift.unreachable.map((u) => `  unreachable: ${u.url} (${u.reason})`),
+        ].join('\n'), drift);
+        if (drift.changed.length || drift.unreachable.length) exitCode = 1;
+        return;
+      }
+      const report = await verifyRecipe(recipe, runOptions(o, rep, 'offline'));
+      print(o, report.identical ? `identical: all ${report.files} files match` : [`${report.differing.length} file(s) differ:`, ...report.differing.map((d) => `  ${d.file}`)].join('\n'), report);
+      if (!report.identical) exitCode = 1;
+    });
+
+  program.command('trace <patchId>').description('print the chain of provenance of one patch')
+    .option('--dataset <dir>', 'dataset folder', '.')
+    .option('--json', 'print the chain as JSON')
+    .action(async (id: string, o: { dataset: string; json?: boolean }) => {
+      const { chain } = await tracePatch(resolve(o.dataset), id);
+      stdout.write(o.json ? `${JSON.stringify(chain, null, 2)}\n` : `${renderTrace(chain)}\n`);
+    });
+
+  program.command('demo').description('paint the invented sample boards, serve them on 127.0.0.1, and run the whole job')
+    .option('--out <dir>', 'demo folder', 'swatchbook-demo')
+    .addOption(new Option('--port <n>', 'port of the embedded image server on 127.0.0.1').default(String(DEFAULT_DEMO_PORT)))
+    .option('--json', 'print a machine-readable summary on stdout')
+    .option('--quiet', 'print nothing but errors')
+    .action(async (o: { out: string; port: string; json?: boolean; quiet?: boolean }) => {
+      const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      const port = Number(o.port);
+      if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port must be a port number, got ${JSON.stringify(o.port)}`);
+      const result = await runDemo(o.out, port, { onStage: (s) => rep.note(s), warn: (m) => rep.warn(m), onProgress: (stage, d, t) => rep.progress(stage, d, t) });
+      const b = result.build;
+      print(o, [
+        rep.bold(`demo done: ${b.patches} patches (train ${b.perSplit.train}, val ${b.perSplit.val}, test ${b.perSplit.test})`),
+        `dataset:   ${result.dataset}`,
+        `card:      ${join(result.dataset, 'card.md')}`,
+        `index:     ${join(result.dataset, 'index.jsonl')}`,
+        `failures:  ${join(result.dataset, 'failures.jsonl')} (${b.failures})`,
+        `recipe:    ${result.recipeFile}`,
+        `try:       swatchbook trace <id from index.jsonl> --dataset ${result.dataset}`,
+      ].join('\n'), result);
+      if (b.failures) exitCode = 1;
+    });
+
+  try {
+    await program.parseAsync(['node', 'swatchbook', ...argv]);
+    return exitCode;
+  } catch (err) {
+    if (err instanceof CommanderError) {
+      if (err.code === 'commander.helpDisplayed' || err.code === 'commander.version' || err.code === 'commander.help') return 0;
+      return 2;
+    }
+    if (err instanceof SwatchbookError) {
+      stderr.write(`swatchbook: ${err.message}\n`);
+      if (debug && err.stack) stderr.write(`${err.stack}\n`);
+      return err.exitCode;
+    }
+    stderr.write(`swatchbook: internal error: ${redactUrl((err as Error)?.message ?? String(err))}\n`);
+    if (debug && (err as Error)?.stack) stderr.write(`${(err as Error).stack}\n`);
+    else stderr.write('(run again with --debug for details)\n');
+    return 1;
+  }
 }

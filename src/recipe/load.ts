@@ -48,6 +48,20 @@ function firstError(errors: ErrorObject[], doc: unknown, file: string): InputErr
         ? 'expected exactly one of "manifest", "collection", "annotations" or "sheet"'
         : 'expected exactly one of "pixelsPerCanvasUnit" or "pixelsPerMm"';
       break;
+    case 'minItems':
+      detail = `expected at least ${(e.params as { limit: number }).limit} item(s), got ${describeValue(valueAt(doc, pointer))}`;
+      break;
+    case 'minProperties':
+      detail = `expected at least ${(e.params as { limit: number }).limit} entry, got an empty object`;
+      break;
+    case 'minimum':
+    case 'maximum':
+    case 'exclusiveMinimum':
+    case 'exclusiveMaximum': {
+      const p = e.params as { comparison: string; limit: number };
+      detail = `expected a number ${p.comparison} ${p.limit}, got ${describeValue(valueAt(doc, pointer))}`;
+      break;
+    }
     default:
       detail = `${e.message ?? 'is invalid'}, got ${describeValue(valueAt(doc, pointer))}`;
   }
