@@ -32,6 +32,8 @@ export interface MockServerOptions {
   /** Answer requests above maxWidth with a silently smaller image (a misbehaving server). */
   silentlyShrink?: boolean;
   extra?: Record<string, unknown>;
+  /** Delay each image answer by a pseudo-random time (ms) from this function, to shuffle arrival order. */
+  delayMs?: (path: string) => number;
 }
 
 /**
@@ -55,6 +57,7 @@ export function mockImageService(host: string, path: string, img: RgbImage, o: M
       const rest = uri.slice(path.length + 1);
       counts.set(rest, (counts.get(rest) ?? 0) + 1);
       if (rest === 'info.json') return [200, JSON.stringify(info), { 'content-type': 'application/ld+json' }];
+      if (o.delayMs) await new Promise((r) => setTimeout(r, o.delayMs!(rest)));
       const m = /^(full|\d+,\d+,\d+,\d+)\/(\^?)(max|full|\d+,|\d+,\d+)\/0\/default\.(png|jpg)$/.exec(rest);
       if (!m) return [400, 'bad request'];
       const [rx, ry, rw, rh] = m[1] === 'full' ? [0, 0, img.width, img.height] : m[1].split(',').map(Number);
