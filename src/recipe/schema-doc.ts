@@ -28,7 +28,7 @@ export function schemaRows(): { path: string; type: string; def: string; range: 
     if (n.type === 'object' && n.properties) for (const [k, child] of Object.entries(n.properties as Record<string, Node>)) walk(child, `${path}.${k}`, (n.required ?? []).includes(k));
     if (n.oneOf && path === 'scale') for (const o of n.oneOf as Node[]) for (const [k, child] of Object.entries(o.properties as Record<string, Node>)) walk(child, `${path}.${k}`, false);
     if (n.type === 'array' && n.items?.oneOf) {
-      for (const o of n.items.oneOf as Node[]) for (const [k, child] of Object.entries(o.properties as Record<string, Node>)) if (!rows.some((r) => r.path === `${path}[].${k}`)) walk(child, `${path}[].${k}`, (o.required ?? []).includes(k));
+      for (const o of n.items.oneOf as Node[]) for (const [k, child] of Object.entries(o.properties as Record<string, Node>)) if (!rows.some((r) => r.path === `${path}[].${k}`)) walk(child, `${path}[].${k}`, false);
     }
   };
   for (const [k, child] of Object.entries(recipeSchema.properties as Record<string, Node>)) walk(child, k, (recipeSchema.required as readonly string[]).includes(k));

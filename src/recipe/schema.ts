@@ -27,10 +27,10 @@ export const recipeSchema = {
       description: 'Where regions come from: IIIF manifests and collections (their annotations included), W3C annotation documents, CSV sheets. URLs or paths relative to the recipe.',
       items: {
         oneOf: [
-          { type: 'object', additionalProperties: false, required: ['manifest'], properties: { manifest: { type: 'string', minLength: 1, description: 'A Presentation 3 manifest.' }, ...sourceCommon } },
-          { type: 'object', additionalProperties: false, required: ['collection'], properties: { collection: { type: 'string', minLength: 1, description: 'A Presentation 3 collection, followed recursively.' }, ...sourceCommon } },
-          { type: 'object', additionalProperties: false, required: ['annotations'], properties: { annotations: { type: 'string', minLength: 1, description: 'A W3C AnnotationPage, AnnotationCollection or array of annotations.' } } },
-          { type: 'object', additionalProperties: false, required: ['sheet'], properties: { sheet: { type: 'string', minLength: 1, description: 'A CSV file with columns manifest, canvas, xywh, svg, label, group.' } } },
+          { type: 'object', additionalProperties: false, required: ['manifest'], properties: { manifest: { type: 'string', minLength: 1, description: 'Source kind (one per source): a Presentation 3 manifest.' }, ...sourceCommon } },
+          { type: 'object', additionalProperties: false, required: ['collection'], properties: { collection: { type: 'string', minLength: 1, description: 'Source kind: a Presentation 3 collection, followed recursively.' }, ...sourceCommon } },
+          { type: 'object', additionalProperties: false, required: ['annotations'], properties: { annotations: { type: 'string', minLength: 1, description: 'Source kind: a W3C AnnotationPage, AnnotationCollection or array of annotations.' } } },
+          { type: 'object', additionalProperties: false, required: ['sheet'], properties: { sheet: { type: 'string', minLength: 1, description: 'Source kind: a CSV file with columns manifest, canvas, xywh, svg, label, group.' } } },
         ],
       },
     },

@@ -1,0 +1,55 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { mkdtemp, readFile, rm } from 'node:fs/promises';
+import { createServer } from 'node:net';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { runDemo } from '../../src/demo/run-demo.ts';
+import { hashTree } from '../../src/pipeline.ts';
+import { parseIndex } from '../../src/dataset/records.ts';
+import { startDemoServer } from '../../src/demo/server.ts';
+
+let dir: string;
+beforeAll(async () => {
+  dir = await mkdtemp(join(tmpdir(), 'swatchbook-demo-'));
+});
+afterAll(async () => {
+  await rm(dir, { recursive: true, force: true });
+});
+
+async function freePort(): Promise<number> {
+  const srv = createServer();
+  await new Promise<void>((r) => srv.listen(0, '127.0.0.1', () => r()));
+  const port = (srv.address() as { port: number }).port;
+  await new Promise<void>((r) => srv.close(() => r()));
+  return port;
+}
+
+describe('the demo', () => {
+  it('twice on the same port, from scratch: a real dataset, every class in every split, byte-identical', async () => {
+    const port = await freePort();
+    const a = await runDemo(join(dir, 'a'), port, {});
+    const b = await runDemo(join(dir, 'b'), port, {});
+    expect(a.build.failures).toBe(0);
+    const records = parseIndex(await readFile(join(a.dataset, 'index.jsonl'), 'utf8'));
+    expect(records.length).toBeGreaterThan(300);
+    const classes = ['background', 'gilding', 'graining', 'marbling'];
+    for (const split of ['train', 'val', 'test']) for (const c of classes) expect(records.some((r) => r.split === split && r.label === c), `${c} in ${split}`).toBe(true);
+    // all three server flavours contributed
+    expect(new Set(records.map((r) => `${r.service.version}/${r.service.level}`))).toEqual(new Set(['3/2', '2/2', '3/0']));
+    const card = await readFile(join(a.dataset, 'card.md'), 'utf8');
+    expect(card).toContain('## Collection process');
+    expect(Object.keys(JSON.parse(await readFile(join(a.dataset, 'lock.json'), 'utf8')).entries).length).toBeGreaterThan(100);
+    const ha = await hashTree(a.dataset), hb = await hashTree(b.dataset);
+    expect([...hb.entries()]).toEqual([...ha.entries()]);
+  }, 120_000);
+
+  it('says clearly when its port is taken', async () => {
+    const port = await freePort();
+    const first = await startDemoServer(dir, new Map(), port);
+    try {
+      await expect(startDemoServer(dir, new Map(), port)).rejects.toThrow(`port ${port} on 127.0.0.1 is taken; choose another with --port`);
+    } finally {
+      await first.close();
+    }
+  });
+});
