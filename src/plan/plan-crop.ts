@@ -77,7 +77,8 @@ export function planCrop(input: CropPlanInput): CropRequest {
   if (!stitch) stitch = fromLevel0(service, box, imageInt(box), Math.max(kx, ky), format, notes);
 
   return {
-    key: stableId([service.base, s, box.x, box.y, box.w, box.h, format]),
+    // The placement is part of the key: one image painted on two canvases gives different crops for one output box.
+    key: stableId([service.base, s, placement.target.x, placement.target.y, placement.target.w, placement.target.h, placement.source.x, placement.source.y, placement.source.w, placement.source.h, box.x, box.y, box.w, box.h, format]),
     service: { id: service.id, base: service.base, version: service.version, level: service.level },
     scale: s,
     outputBox: box,

@@ -152,3 +152,15 @@ describe('whole-image tiles', () => {
     ]]);
   });
 });
+
+describe('crop keys', () => {
+  it('differ when one image is painted on two canvases at different places', () => {
+    const svc: ImageService = { ...v3spec, maxWidth: undefined, maxHeight: undefined, maxArea: undefined };
+    const a = planCrop({ service: svc, placement: whole(svc), scale: 1, canvasRect: { x: 500, y: 300, w: 64, h: 64 }, format: 'jpg' });
+    const moved: Placement = { ...whole(svc), target: { x: 200, y: 100, w: svc.width, h: svc.height } };
+    const b = planCrop({ service: svc, placement: moved, scale: 1, canvasRect: { x: 500, y: 300, w: 64, h: 64 }, format: 'jpg' });
+    expect(a.outputBox).toEqual(b.outputBox);
+    expect(a.key).not.toBe(b.key);
+    expect(b.stitch.pieces[0].url).toContain('/300,200,64,64/');
+  });
+});

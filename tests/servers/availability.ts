@@ -1,0 +1,17 @@
+import { existsSync } from 'node:fs';
+import { spawnSync } from 'node:child_process';
+
+export const IIPSRV_FCGI = '/usr/lib/iipimage-server/iipsrv.fcgi';
+
+/**
+ * Whether the Debian packages for the Image API 2 server are here. In CI
+ * (SWATCHBOOK_REQUIRE_SERVERS set, as .ci/run does) a missing package is a failure, never a skip.
+ */
+export function iipAvailable(): boolean {
+  const have = existsSync(IIPSRV_FCGI) && spawnSync('lighttpd', ['-v']).status === 0 && spawnSync('vips', ['--version']).status === 0;
+  if (!have && process.env.SWATCHBOOK_REQUIRE_SERVERS) {
+    throw new Error('SWATCHBOOK_REQUIRE_SERVERS is set but iipimage-server, lighttpd or libvips-tools is missing (apt-get install -y iipimage-server lighttpd libvips-tools)');
+  }
+  if (!have) console.warn('skipping the iipsrv tests: apt-get install -y iipimage-server lighttpd libvips-tools to run them');
+  return have;
+}
