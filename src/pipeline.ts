@@ -40,8 +40,10 @@ export async function openFetcher(recipe: Recipe, opts: RunOptions): Promise<Fet
     if (!lock) throw new UsageError(`--frozen needs the lock file ${lockPathFor(recipe)}; run once without --frozen to write it`);
   }
   const n = recipe.network;
+  const cache = new ContentCache(opts.cacheDir ?? defaultCacheDir(recipe));
+  await cache.sweepTemp();
   return new Fetcher({
-    cache: new ContentCache(opts.cacheDir ?? defaultCacheDir(recipe)),
+    cache,
     mode,
     ...(lock ? { lock } : {}),
     concurrency: opts.concurrency ?? n.concurrency,

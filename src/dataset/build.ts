@@ -39,6 +39,9 @@ export interface BuildOptions {
   onProgress?: (stage: 'fetch' | 'cut', done: number, total: number) => void;
 }
 
+/** Bump when cutting, encoding or hashing changes, so cached cut results are not reused. */
+const DERIVED_VERSION = 1;
+
 interface Cut {
   sha256: string;
   phash: string;
@@ -89,17 +92,36 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
       served.map((key) =>
         limit(async () => {
           const crop = cropByKey.get(key)!;
+          const patches = byCrop.get(key) ?? [];
           try {
+            // Cut results are cached under the hash of everything they depend on, so a warm rebuild copies instead of re-encoding.
+            const derivedKey = sha256Hex(JSON.stringify({ v: DERIVED_VERSION, tool: [sharp.versions.sharp, sharp.versions.vips], stitch: crop.stitch, pieces: harvest.served.get(key)!.map((o) => o.sha256), patches: patches.map((p) => [p.id, p.inCrop]) }));
+            const cache = fetcher.options.cache;
+            const known = await cache.getDerived<Record<string, Cut>>(derivedKey);
+            if (known && patches.every((p) => known[p.id])) {
+              const bodies = await Promise.all(patches.map((p) => cache.getBody(known[p.id].sha256)));
+              if (bodies.every((b) => b !== undefined)) {
+                for (const [i, p] of patches.entries()) {
+                  await writeFile(join(staging, `${p.id}.png`), bodies[i]!);
+                  cuts.set(p.id, known[p.id]);
+                }
+                return;
+              }
+            }
             const bodies = new Map<string, Buffer>();
             for (const piece of crop.stitch.pieces) bodies.set(piece.url, (await fetchPiece(fetcher, piece)).body);
             const { image } = await stitchCrop(crop, (u) => bodies.get(u));
-            for (const p of byCrop.get(key) ?? []) {
+            const made: Record<string, Cut> = {};
+            for (const p of patches) {
               const patch = extractRgb(image, p.inCrop.x, p.inCrop.y, p.inCrop.w, p.inCrop.h);
               const png = await encodePng(patch);
               const h = dHash(patch.data, patch.width, patch.height);
               await writeFile(join(staging, `${p.id}.png`), png);
-              cuts.set(p.id, { sha256: sha256Hex(png), phash: h.hash, textured: h.textured });
+              const cut = { sha256: await cache.putBody(png), phash: h.hash, textured: h.textured };
+              cuts.set(p.id, cut);
+              made[p.id] = cut;
             }
+            await cache.putDerived(derivedKey, made);
           } catch (err) {
             const reason = err instanceof FetchError ? err.reason : (err as Error).message;
             failures.push({ stage: 'crop', key, reason: `could not be stitched: ${reason}` });

@@ -1,4 +1,4 @@
-import { readFile, rm } from 'node:fs/promises';
+import { readdir, readFile, rm } from 'node:fs/promises';
 import { join } from 'node:path';
 import { sha256Hex } from '../util/hash.ts';
 import { writeFileAtomic } from './atomic-write.ts';
@@ -64,11 +64,60 @@ export class ContentCache {
     }
   }
 
+  /** A derived record (build results keyed by the hash of their inputs), or undefined. */
+  async getDerived<T>(key: string): Promise<T | undefined> {
+    try {
+      return JSON.parse(await readFile(join(this.dir, 'derived', key.slice(0, 2), `${key}.json`), 'utf8')) as T;
+    } catch {
+      return undefined;
+    }
+  }
+
+  async putDerived(key: string, value: unknown): Promise<void> {
+    await writeFileAtomic(join(this.dir, 'derived', key.slice(0, 2), `${key}.json`), `${JSON.stringify(value)}\n`);
+  }
+
+  /** Removes temporary files left by killed processes (their pid no longer runs). */
+  async sweepTemp(): Promise<number> {
+    let removed = 0;
+    const walk = async (d: string): Promise<void> => {
+      let entries;
+      try {
+        entries = await readdir(d, { withFileTypes: true });
+      } catch {
+        return;
+      }
+      for (const e of entries) {
+        const p = join(d, e.name);
+        if (e.isDirectory()) await walk(p);
+        else {
+          const m = /^\.tmp-(\d+)-/.exec(e.name);
+          if (m && !pidAlive(Number(m[1]))) {
+            await rm(p, { force: true });
+            removed++;
+          }
+        }
+      }
+    };
+    await walk(this.dir);
+    return removed;
+  }
+
   /** The cached body for a URL, verified, with its facts. */
   async lookup(url: string): Promise<{ facts: ResponseFacts; body: Buffer } | undefined> {
     const facts = await this.getRef(url);
     if (!facts) return undefined;
     const body = await this.getBody(facts.sha256);
     return body ? { facts, body } : undefined;
+  }
+}
+
+function pidAlive(pid: number): boolean {
+  if (pid === process.pid) return true;
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (err) {
+    return (err as NodeJS.ErrnoException).code === 'EPERM';
   }
 }

@@ -38,7 +38,7 @@ export function serialiseLock(lock: LockFile): string {
 }
 
 export async function writeLock(path: string, lock: LockFile): Promise<void> {
-  await writeFileAtomic(path, serialiseLock(lock));
+  await writeFileAtomic(path, serialiseLock(lock), true);
 }
 
 export async function readLock(path: string): Promise<LockFile | undefined> {
