@@ -44,8 +44,8 @@ export interface AnnotationDocument {
  * Reads a W3C AnnotationPage, AnnotationCollection, single Annotation, or a
  * plain array of annotations. Painting annotations are ignored: they are images, not regions.
  */
-export function parseAnnotationDocument(doc: unknown, source: string): AnnotationDocument {
-  const view = JsonView.of(doc, source, 'E_ANNOTATION_INVALID');
+export function parseAnnotationDocument(doc: unknown, source: string, basePointer = ''): AnnotationDocument {
+  const view = new JsonView(doc, source, 'E_ANNOTATION_INVALID', basePointer);
   const out: AnnotationDocument = { annotations: [], pageRefs: [] };
   const readPage = (page: JsonView) => {
     for (const item of page.at('items').list()) {

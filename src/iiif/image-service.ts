@@ -49,6 +49,10 @@ export interface ImageServiceRef {
   embedded?: unknown;
 }
 
+/** Sanity limits for declared image sizes (the largest published images are around 10^10 pixels; common practice). */
+export const MAX_SIDE = 1_000_000;
+export const MAX_AREA = 100_000_000_000;
+
 const V3_CONTEXT = 'http://iiif.io/api/image/3/context.json';
 const V2_CONTEXT = 'http://iiif.io/api/image/2/context.json';
 const PHYSDIM_PROFILE = 'http://iiif.io/api/annex/services/physdim';
@@ -184,6 +188,9 @@ export function parseInfoJson(doc: unknown, fetchedFrom: string): ImageService {
   const id = view.requireId();
   const width = view.at('width').positiveInt();
   const height = view.at('height').positiveInt();
+  if (width > MAX_SIDE || height > MAX_SIDE || width * height > MAX_AREA) {
+    throw view.at('width').error(`claims ${width}×${height} pixels, beyond the ${MAX_SIDE}-pixel side and ${MAX_AREA / 1e9}-gigapixel limits swatchbook accepts`);
+  }
 
   let level: ComplianceLevel | undefined;
   let maxWidth: number | undefined;

@@ -297,11 +297,11 @@ export class Fetcher {
     } catch (err) {
       if (err instanceof AttemptFailure) throw err;
       const code = (err as { code?: string }).code;
+      if (code === 'ERR_BODY_TOO_LARGE') throw new AttemptFailure((err as Error).message, { permanent: true });
       const declared = Number(header(headers, 'content-length'));
       if (status === 200 && Number.isFinite(declared) && size < declared) {
         throw new AttemptFailure(`truncated body: ${size} of ${declared} bytes`, { errorCode: 'ERR_TRUNCATED' });
       }
-      if (code === 'ERR_BODY_TOO_LARGE') throw new AttemptFailure((err as Error).message, { permanent: true });
       throw new AttemptFailure(`${code ?? 'network error'}: ${(err as Error).message}`, { errorCode: code ?? 'ECONNRESET' });
     }
     const body = Buffer.concat(chunks);

@@ -15,9 +15,14 @@ export function isUrl(location: string): boolean {
   return /^https?:\/\//i.test(location);
 }
 
-/** Reads a document from a URL (through the fetcher: cache, lock, politeness) or a local file. */
-export async function loadText(location: string, fetcher: Fetcher, code: 'E_MANIFEST_INVALID' | 'E_ANNOTATION_INVALID' | 'E_SHEET_INVALID' | 'E_COLLECTION_INVALID'): Promise<LoadedDocument> {
-  if (isUrl(location)) {
+/**
+ * Reads a document from a URL (through the fetcher: cache, lock, politeness) or,
+ * when `allowFile` (locations the recipe or a sheet names), a local file.
+ * Locations found inside documents are always URLs: anything else goes to the
+ * fetcher, which refuses non-http schemes with a recorded reason.
+ */
+export async function loadText(location: string, fetcher: Fetcher, code: 'E_MANIFEST_INVALID' | 'E_ANNOTATION_INVALID' | 'E_SHEET_INVALID' | 'E_COLLECTION_INVALID', allowFile = false): Promise<LoadedDocument> {
+  if (isUrl(location) || !allowFile) {
     const got = await fetcher.get(location, 'json');
     return { location, text: got.body.toString('utf8'), sha256: got.facts.sha256, fromNetwork: true };
   }
@@ -30,7 +35,7 @@ export async function loadText(location: string, fetcher: Fetcher, code: 'E_MANI
   return { location, text: buf.toString('utf8'), sha256: sha256Hex(buf), fromNetwork: false };
 }
 
-export async function loadJson(location: string, fetcher: Fetcher, code: 'E_MANIFEST_INVALID' | 'E_ANNOTATION_INVALID' | 'E_COLLECTION_INVALID'): Promise<{ doc: unknown } & LoadedDocument> {
-  const loaded = await loadText(location, fetcher, code);
+export async function loadJson(location: string, fetcher: Fetcher, code: 'E_MANIFEST_INVALID' | 'E_ANNOTATION_INVALID' | 'E_COLLECTION_INVALID', allowFile = false): Promise<{ doc: unknown } & LoadedDocument> {
+  const loaded = await loadText(location, fetcher, code, allowFile);
   return { ...loaded, doc: parseJsonText(loaded.text, location, code) };
 }

@@ -53,9 +53,9 @@ export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fe
     failures.push({ stage, key, url: err.url, ...(err.status !== undefined ? { status: err.status } : {}), attempts: err.attempts, reason: err.reason });
   };
 
-  const addManifest = async (location: string, collections: string[], mm?: number) => {
+  const addManifest = async (location: string, collections: string[], mm?: number, allowFile = false) => {
     try {
-      const loaded = await loadJson(location, fetcher, 'E_MANIFEST_INVALID');
+      const loaded = await loadJson(location, fetcher, 'E_MANIFEST_INVALID', allowFile);
       documents.push({ location, kind: 'manifest', sha256: loaded.sha256 });
       const manifest = parseManifest(loaded.doc, location);
       const prev = manifests.get(manifest.id);
@@ -92,7 +92,7 @@ export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fe
     }
   };
 
-  const addAnnotationDocument = async (location: string, seen: Set<string>) => {
+  const addAnnotationDocument = async (location: string, seen: Set<string>, allowFile = false) => {
     const queue = [location];
     while (queue.length > 0) {
       const loc = queue.shift()!;
@@ -100,7 +100,7 @@ export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fe
       seen.add(loc);
       if (seen.size > MAX_PAGES) throw new InputError('E_ANNOTATION_INVALID', location, '', `more than ${MAX_PAGES} annotation pages`);
       try {
-        const loaded = await loadJson(loc, fetcher, 'E_ANNOTATION_INVALID');
+        const loaded = await loadJson(loc, fetcher, 'E_ANNOTATION_INVALID', allowFile && loc === location);
         documents.push({ location: loc, kind: 'annotations', sha256: loaded.sha256 });
         const parsed = parseAnnotationDocument(loaded.doc, loc);
         annotations.push(...parsed.annotations);
@@ -115,11 +115,11 @@ export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fe
   for (const source of sources) {
     switch (source.kind) {
       case 'manifest':
-        await addManifest(source.location, [], source.mmPerCanvasUnit);
+        await addManifest(source.location, [], source.mmPerCanvasUnit, true);
         break;
       case 'collection':
         try {
-          const loaded = await loadJson(source.location, fetcher, 'E_COLLECTION_INVALID');
+          const loaded = await loadJson(source.location, fetcher, 'E_COLLECTION_INVALID', true);
           documents.push({ location: source.location, kind: 'collection', sha256: loaded.sha256 });
           await walkCollection(parseCollection(loaded.doc, source.location), [], source.mmPerCanvasUnit, '');
         } catch (err) {
@@ -127,15 +127,15 @@ export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fe
         }
         break;
       case 'annotations':
-        await addAnnotationDocument(source.location, pagesSeen);
+        await addAnnotationDocument(source.location, pagesSeen, true);
         break;
       case 'sheet': {
         try {
-          const loaded = await loadText(source.location, fetcher, 'E_SHEET_INVALID');
+          const loaded = await loadText(source.location, fetcher, 'E_SHEET_INVALID', true);
           documents.push({ location: source.location, kind: 'sheet', sha256: loaded.sha256 });
           const sheet = parseSheet(loaded.text, source.location);
           annotations.push(...sheet.annotations);
-          for (const m of sheet.manifests) await addManifest(isUrl(m) ? m : resolvePath(dirname(source.location), m), []);
+          for (const m of sheet.manifests) await addManifest(isUrl(m) ? m : resolvePath(dirname(source.location), m), [], undefined, !isUrl(source.location));
         } catch (err) {
           fail('source', source.location, err);
         }
@@ -150,7 +150,7 @@ export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fe
     const pages = [...manifest.annotationPages, ...manifest.canvases.flatMap((c) => c.annotationPages)];
     for (const page of pages) {
       if (page.embedded !== undefined) {
-        annotations.push(...parseAnnotationDocument(page.embedded, `${manifest.source}#${page.pointer}`).annotations);
+        annotations.push(...parseAnnotationDocument(page.embedded, manifest.source, page.pointer).annotations);
       } else if (page.id) {
         await addAnnotationDocument(page.id, pagesSeen);
       }
