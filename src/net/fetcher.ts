@@ -208,7 +208,7 @@ export class Fetcher {
         const f = err instanceof AttemptFailure ? err : new AttemptFailure((err as Error).message, { errorCode: (err as { code?: string }).code });
         const decision = f.fields.permanent ? { retry: false as const, reason: f.reason } : decideRetry(this.options.retry, { attempt, url, ...f.fields }, this.options.now());
         if (!decision.retry) {
-          const reason = f.fields.permanent || f.reason === decision.reason ? f.reason : `${f.reason}; ${decision.reason}`;
+          const reason = f.fields.permanent || f.reason === decision.reason ? f.reason : decision.reason.startsWith(f.reason) ? decision.reason : `${f.reason}; ${decision.reason}`;
           throw new FetchError(url, reason, { status: f.fields.status, attempts: attempt }, { cause: err });
         }
         this.stats.retries++;

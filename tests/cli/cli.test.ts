@@ -52,7 +52,7 @@ describe('the command line', () => {
     expect(r.stderr).not.toMatch(/\n\s+at /);
   });
 
-  it('a bad manifest names the file and the JSON location, exit code 2', async () => {
+  it('a bad manifest names the file and the JSON location, exit code 2', { timeout: 60_000 }, async () => {
     const sub = join(dir, 'badmanifest');
     await (await import('node:fs/promises')).mkdir(sub, { recursive: true });
     await writeFile(join(sub, 'board.json'), JSON.stringify({ id: 'https://x.example/m', type: 'Manifest', items: [{ id: 'https://x.example/c', type: 'Canvas', width: 10 }] }));
@@ -63,13 +63,13 @@ describe('the command line', () => {
     expect(await readdir(sub)).toEqual(['board.json', 'recipe.json']); // nothing half-written
   });
 
-  it('usage errors exit with 2', () => {
+  it('usage errors exit with 2', { timeout: 60_000 }, () => {
     expect(cli(['nonsense']).code).toBe(2);
     expect(cli(['plan']).code).toBe(2);
     expect(cli(['run', join(dir, 'missing.json'), '--offline', '--frozen']).code).toBe(2);
   });
 
-  it('init writes a recipe that validates, and RECIPE.md', async () => {
+  it('init writes a recipe that validates, and RECIPE.md', { timeout: 60_000 }, async () => {
     const sub = join(dir, 'init');
     const r = cli(['init', sub]);
     expect(r.code).toBe(0);
@@ -82,7 +82,7 @@ describe('the command line', () => {
     expect(out.failures[0].reason).toMatch(/not in the cache/);
   });
 
-  it('--version and --help exit 0', () => {
+  it('--version and --help exit 0', { timeout: 60_000 }, () => {
     expect(cli(['--version']).stdout.trim()).toBe('0.1.0');
     expect(cli(['--help']).code).toBe(0);
   });

@@ -194,7 +194,7 @@ describe.skipIf(!iipAvailable())('Image API 2, level 1: iipsrv behind lighttpd',
     expect(res.failures[0].reason).toMatch(/returned 256×\d+ for a 600×400 request/);
   }, 60_000);
 
-  it('the same region from all three servers gives patches that agree within the tolerance', async () => {
+  it('the same region from all three servers gives patches that agree within the tolerance', { timeout: 60_000 }, async () => {
     const p = byPlace(results.get('processor')!.records), s = byPlace(results.get('static3')!.records), i = byPlace(results.get('iipsrv')!.records);
     let compared = 0;
     for (const [key, r] of p) {
