@@ -19,6 +19,7 @@ export interface RunOptions {
   onEvent?: (e: FetchEvent) => void;
   warn?: (message: string) => void;
   onProgress?: BuildOptions['onProgress'];
+  recordedOutput?: string;
   /** Injected clock for tests. */
   sleep?: (ms: number) => Promise<void>;
 }
@@ -84,8 +85,11 @@ export async function harvestRecipe(recipe: Recipe, opts: RunOptions = {}): Prom
 /** Plans, harvests and builds the dataset folder. */
 export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { build: BuildSummary }> {
   const planned = await planRecipe(recipe, opts);
-  const build = await buildDataset(recipe, planned.sources, planned.plan, planned.fetcher, { ...(opts.onProgress ? { onProgress: opts.onProgress } : {}) });
-  if ((opts.mode ?? 'online') !== 'frozen') await writeLock(lockPathFor(recipe), lockFrom(planned.fetcher.used.values()));
+  const build = await buildDataset(recipe, planned.sources, planned.plan, planned.fetcher, {
+    ...(opts.onProgress ? { onProgress: opts.onProgress } : {}),
+    ...(opts.recordedOutput ? { recordedOutput: opts.recordedOutput } : {}),
+  });
+  if ((opts.mode ?? 'online') !== 'frozen' && opts.writeLock !== false) await writeLock(lockPathFor(recipe), lockFrom(planned.fetcher.used.values()));
   await logRun(recipe, opts, 'build', build);
   return { ...planned, build };
 }
@@ -127,7 +131,7 @@ export async function verifyRecipe(recipe: Recipe, opts: RunOptions = {}): Promi
   }
   const scratch = `${recipe.output}.verify-${process.pid}`;
   try {
-    await runRecipe({ ...recipe, output: scratch }, { ...opts, mode: 'offline' });
+    await runRecipe({ ...recipe, output: scratch }, { ...opts, mode: 'offline', recordedOutput: recipe.output, writeLock: false });
     const rebuilt = await hashTree(scratch);
     const differing: VerifyReport['differing'] = [];
     for (const file of new Set([...existing.keys(), ...rebuilt.keys()])) {

@@ -2,7 +2,7 @@ import { mkdir, rename, rm, writeFile } from 'node:fs/promises';
 import { dirname, isAbsolute, join, relative } from 'node:path';
 import sharp from 'sharp';
 import pLimit from 'p-limit';
-import { FetchError } from '../errors.ts';
+import { FetchError, redactUrl } from '../errors.ts';
 import { FailureRecord, fetchPiece, harvestCrops, HarvestResult } from '../harvest/harvest.ts';
 import { encodePng, extractRgb } from '../harvest/pixels.ts';
 import { stitchCrop } from '../harvest/stitch.ts';
@@ -37,6 +37,8 @@ export interface BuildOptions {
   /** Crops stitched at once (CPU work). */
   cpuConcurrency?: number;
   onProgress?: (stage: 'fetch' | 'cut', done: number, total: number) => void;
+  /** The output folder to record in the card when building somewhere else (verify builds into a scratch folder). */
+  recordedOutput?: string;
 }
 
 /** Bump when cutting, encoding or hashing changes, so cached cut results are not reused. */
@@ -55,7 +57,7 @@ export function toolVersions() {
 /** The recipe as written into the card: defaults filled, local paths relative to the recipe's folder. */
 export function recipeForCard(recipe: Recipe): unknown {
   const base = dirname(recipe.file);
-  const rel = (p: string) => (/^https?:\/\//i.test(p) || !isAbsolute(p) ? p : relative(base, p) || '.');
+  const rel = (p: string) => (/^https?:\/\//i.test(p) ? redactUrl(p) : !isAbsolute(p) ? p : relative(base, p) || '.');
   const { file: _file, ...rest } = recipe;
   return {
     ...rest,
@@ -155,7 +157,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
       const cut = cuts.get(p.id)!;
       const split = assignment.byGroup.get(groupOf(p))!;
       const file = `patches/${split}/${p.label}/${p.id}.png`;
-      const responses = (harvest.served.get(p.cropKey) ?? []).map((o) => ({ url: o.url, sha256: o.sha256 }));
+      const responses = (harvest.served.get(p.cropKey) ?? []).map((o) => ({ url: redactUrl(o.url), sha256: o.sha256 }));
       records.push({
         id: p.id,
         split,
@@ -166,14 +168,14 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
         phash: cut.phash,
         coverage: p.coverage,
         group: groupOf(p),
-        manifest: p.manifestId,
-        collections: ctx.collections,
-        canvas: p.canvasId,
+        manifest: redactUrl(p.manifestId),
+        collections: ctx.collections.map(redactUrl),
+        canvas: redactUrl(p.canvasId),
         annotation: p.annotationId ?? null,
         annotator: p.annotator ?? null,
         sourceLabel: p.rawLabel ?? null,
-        service: { id: ctx.service.id, version: ctx.service.version, level: ctx.service.level },
-        requests: crop.stitch.pieces.map((x) => x.url),
+        service: { id: redactUrl(ctx.service.id), version: ctx.service.version, level: ctx.service.level },
+        requests: crop.stitch.pieces.map((x) => redactUrl(x.url)),
         responses,
         canvasRegion: p.canvasRegion,
         imageRegion: p.imageRegion,
@@ -193,14 +195,14 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
     const tool = toolVersions();
     const card = buildCard({
       recipe,
-      recipeShown: recipeForCard(recipe),
+      recipeShown: recipeForCard(opts.recordedOutput ? { ...recipe, output: opts.recordedOutput } : recipe),
       records,
       plan,
       failures,
       pairs,
       mergedGroups,
       assignment,
-      sources: sources.documents.map((d) => ({ ...d, location: /^https?:/.test(d.location) ? d.location : relative(dirname(recipe.file), d.location) })),
+      sources: sources.documents.map((d) => ({ ...d, location: /^https?:/.test(d.location) ? redactUrl(d.location) : relative(dirname(recipe.file), d.location) })),
       tool,
       droppedPatches: dropped,
     });

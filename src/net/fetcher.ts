@@ -4,7 +4,7 @@ import { FetchError, redactUrl } from '../errors.ts';
 import { ContentCache, ResponseFacts } from './cache.ts';
 import { checkContent } from './content-check.ts';
 import { HostGate } from './host-gate.ts';
-import type { LockFile } from './lock.ts';
+import { lockedEntry, LockFile } from './lock.ts';
 import { decideRetry, RetryPolicy, DEFAULT_RETRY_POLICY } from './retry-policy.ts';
 import { sha256Hex } from '../util/hash.ts';
 import { VERSION } from '../version.ts';
@@ -141,7 +141,7 @@ export class Fetcher {
   private async serveInner(url: string, kind: FetchKind): Promise<Fetched> {
     this.checkUrl(url, url);
     const { mode, lock, cache } = this.options;
-    const locked = lock?.entries[url];
+    const locked = lockedEntry(lock, url);
     if (mode === 'frozen' && !locked) throw new FetchError(url, 'not in the lock file (--frozen allows only locked requests)', { attempts: 0, code: 'E_FROZEN' });
     if (mode !== 'refresh') {
       const hit = await cache.lookup(url);
@@ -201,7 +201,8 @@ export class Fetcher {
         const { facts, body } = await this.attempt(url, kind, attempt);
         const sha = await this.options.cache.putBody(body);
         const full: ResponseFacts = { ...facts, sha256: sha };
-        await this.options.cache.putRef(full);
+        // A refresh (verify --refetch) looks without moving what builds use: refs stay as they were.
+        if (this.options.mode !== 'refresh') await this.options.cache.putRef(full);
         return { facts: full, body, fromCache: false, attempts: attempt };
       } catch (err) {
         if (err instanceof FetchError) throw err;

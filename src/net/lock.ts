@@ -1,6 +1,6 @@
 import { readFile } from 'node:fs/promises';
 import { byString } from '../util/hash.ts';
-import { InputError } from '../errors.ts';
+import { InputError, redactUrl } from '../errors.ts';
 import type { ResponseFacts } from './cache.ts';
 import { writeFileAtomic } from './atomic-write.ts';
 
@@ -16,13 +16,16 @@ export function emptyLock(): LockFile {
   return { lockVersion: LOCK_VERSION, entries: {} };
 }
 
-/** Builds a lock from facts, sorted by URL so its bytes do not depend on arrival order. */
+/**
+ * Builds a lock from facts, sorted by URL so its bytes do not depend on arrival
+ * order. Credentials in URLs are removed: they never reach the lock.
+ */
 export function lockFrom(facts: Iterable<ResponseFacts>): LockFile {
-  const rows = [...facts].sort((a, b) => byString(a.url, b.url));
+  const rows = [...facts].map((f) => ({ ...f, url: redactUrl(f.url) })).sort((a, b) => byString(a.url, b.url));
   const entries: LockFile['entries'] = {};
   for (const f of rows) {
     entries[f.url] = {
-      finalUrl: f.finalUrl,
+      finalUrl: redactUrl(f.finalUrl),
       sha256: f.sha256,
       size: f.size,
       contentType: f.contentType,
@@ -59,4 +62,9 @@ export async function readLock(path: string): Promise<LockFile | undefined> {
     throw new InputError('E_RECIPE_INVALID', path, '/lockVersion', `expected a lock file of version ${LOCK_VERSION}`);
   }
   return lock;
+}
+
+/** The lock row for a request URL (looked up without credentials, as the lock stores them). */
+export function lockedEntry(lock: LockFile | undefined, url: string): LockFile['entries'][string] | undefined {
+  return lock?.entries[redactUrl(url)];
 }
