@@ -19,7 +19,10 @@ export interface RunOptions {
   onEvent?: (e: FetchEvent) => void;
   warn?: (message: string) => void;
   onProgress?: BuildOptions['onProgress'];
+  /** The output folder the card records (verify builds into a scratch folder). */
   recordedOutput?: string;
+  /** Write `<name>.lock.json` beside the recipe (default true; verify does not). */
+  writeLock?: boolean;
   /** Injected clock for tests. */
   sleep?: (ms: number) => Promise<void>;
 }
