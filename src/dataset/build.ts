@@ -87,29 +87,40 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
     }
     const cropByKey = new Map(plan.crops.map((c) => [c.key, c]));
     const cuts = new Map<string, Cut>();
-    const limit = pLimit(opts.cpuConcurrency ?? 2);
+    const cache = fetcher.options.cache;
     let done = 0;
     const served = [...harvest.served.keys()];
+    const derivedKeyOf = (key: string) => {
+      const crop = cropByKey.get(key)!;
+      // Cut results are cached under the hash of everything they depend on, so a warm rebuild copies instead of re-encoding.
+      return sha256Hex(JSON.stringify({ v: DERIVED_VERSION, tool: [sharp.versions.sharp, sharp.versions.vips], stitch: crop.stitch, pieces: harvest.served.get(key)!.map((o) => o.sha256), patches: (byCrop.get(key) ?? []).map((p) => [p.id, p.inCrop]) }));
+    };
+    // Pass 1 (I/O): crops whose cut results are cached and intact are copied.
+    const ioLimit = pLimit(16);
+    const reused = new Set<string>();
     await Promise.all(
       served.map((key) =>
+        ioLimit(async () => {
+          const patches = byCrop.get(key) ?? [];
+          const known = await cache.getDerived<Record<string, Cut>>(derivedKeyOf(key));
+          if (!known || !patches.every((p) => known[p.id])) return;
+          const bodies = await Promise.all(patches.map((p) => cache.getBody(known[p.id].sha256)));
+          if (!bodies.every((b) => b !== undefined)) return;
+          await Promise.all(patches.map((p, i) => writeFile(join(staging, `${p.id}.png`), bodies[i]!)));
+          for (const p of patches) cuts.set(p.id, known[p.id]);
+          reused.add(key);
+          opts.onProgress?.('cut', ++done, served.length);
+        }),
+      ),
+    );
+    // Pass 2 (CPU): stitch, cut, encode and hash the rest.
+    const limit = pLimit(opts.cpuConcurrency ?? 2);
+    await Promise.all(
+      served.filter((key) => !reused.has(key)).map((key) =>
         limit(async () => {
           const crop = cropByKey.get(key)!;
           const patches = byCrop.get(key) ?? [];
           try {
-            // Cut results are cached under the hash of everything they depend on, so a warm rebuild copies instead of re-encoding.
-            const derivedKey = sha256Hex(JSON.stringify({ v: DERIVED_VERSION, tool: [sharp.versions.sharp, sharp.versions.vips], stitch: crop.stitch, pieces: harvest.served.get(key)!.map((o) => o.sha256), patches: patches.map((p) => [p.id, p.inCrop]) }));
-            const cache = fetcher.options.cache;
-            const known = await cache.getDerived<Record<string, Cut>>(derivedKey);
-            if (known && patches.every((p) => known[p.id])) {
-              const bodies = await Promise.all(patches.map((p) => cache.getBody(known[p.id].sha256)));
-              if (bodies.every((b) => b !== undefined)) {
-                for (const [i, p] of patches.entries()) {
-                  await writeFile(join(staging, `${p.id}.png`), bodies[i]!);
-                  cuts.set(p.id, known[p.id]);
-                }
-                return;
-              }
-            }
             const bodies = new Map<string, Buffer>();
             for (const piece of crop.stitch.pieces) bodies.set(piece.url, (await fetchPiece(fetcher, piece)).body);
             const { image } = await stitchCrop(crop, (u) => bodies.get(u));
@@ -123,7 +134,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
               cuts.set(p.id, cut);
               made[p.id] = cut;
             }
-            await cache.putDerived(derivedKey, made);
+            await cache.putDerived(derivedKeyOf(key), made);
           } catch (err) {
             const reason = err instanceof FetchError ? err.reason : (err as Error).message;
             failures.push({ stage: 'crop', key, reason: `could not be stitched: ${reason}` });
@@ -185,10 +196,10 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
         requiredStatement: ctx.provenance.requiredStatement ?? null,
         provider: ctx.provenance.provider,
       });
-      const dest = tx.path(file);
-      await mkdir(dirname(dest), { recursive: true });
-      await rename(join(staging, `${p.id}.png`), dest);
     }
+    for (const dir of new Set(records.map((r) => dirname(tx.path(r.file))))) await mkdir(dir, { recursive: true });
+    const moveLimit = pLimit(16);
+    await Promise.all(records.map((r) => moveLimit(() => rename(join(staging, `${r.id}.png`), tx.path(r.file)))));
     records.sort((a, b) => byString(a.id, b.id));
     failures.sort((a, b) => byString(a.stage, b.stage) || byString(a.key, b.key) || byString(a.reason, b.reason));
 
