@@ -29,7 +29,7 @@ const work = await mkdtemp(join(tmpdir(), 'swatchbook-bench-'));
 const src = truthImage(W, H);
 await mkdir(join(work, 'images'), { recursive: true });
 const png = await sharp(src.data, { raw: { width: W, height: H, channels: 3 } }).png().toBuffer();
-for (let i = 0; i < 6; i++) await writeFile(join(work, 'images', `b${i}.png`), png);
+for (let i = 0; i < 4; i++) await writeFile(join(work, 'images', `b${i}.png`), png);
 await mkdir(join(work, 'static'), { recursive: true });
 await sharp(png).jpeg({ quality: 90 }).tile({ layout: 'iiif3', size: 256, overlap: 0 }).toFile(join(work, 'static', 'b0.dz'));
 const proc = await startProcessorServer(join(work, 'images'));
@@ -56,7 +56,7 @@ async function recipeFor(name: string, services: { id: string; type: string; pro
   return normaliseRecipe({ name, sources: [{ manifest: 'manifest.json' }], labels: { oak: [], marble: [] }, scale: { pixelsPerCanvasUnit: scale }, patch: { size: 64 }, negatives: { ratio: 1 }, request: { format: 'png' }, network: { contact: 'mailto:bench@example.org', concurrency: 4, perHost: 4, perHostRate: 1000, retries: 0 } }, join(dir, 'recipe.json'), dir);
 }
 
-const svc3 = [0, 1, 2, 3, 4, 5].map((i) => ({ id: `${proc.base}/3/b${i}.png`, type: 'ImageService3', profile: 'level2' }));
+const svc3 = [0, 1, 2, 3].map((i) => ({ id: `${proc.base}/3/b${i}.png`, type: 'ImageService3', profile: 'level2' }));
 const rows: [string, string, string][] = [];
 
 // 1. harvest ÷ bare fetch, same URLs, same concurrency (4), fresh cache each time.

@@ -87,6 +87,14 @@ describe('retries', () => {
     expect(fetcher.stats.requests).toBe(2);
     expect(events.some((e) => e.type === 'retry' && /truncated body: 50 of 120 bytes/.test(e.reason))).toBe(true);
   });
+  it('retries a request that times out', async () => {
+    nock(HOST).get('/slow').delay(300).reply(...json({ late: true })).get('/slow').reply(...json({ quick: true }));
+    const { fetcher, events } = makeFetcher(dir, { timeoutMs: 50 });
+    const r = await fetcher.get(`${HOST}/slow`, 'json');
+    expect(JSON.parse(r.body.toString())).toEqual({ quick: true });
+    expect(fetcher.stats.requests).toBe(2);
+    expect(events.some((e) => e.type === 'retry' && /ETIMEDOUT/.test(e.reason))).toBe(true);
+  });
   it('retries a reset connection', async () => {
     nock(HOST).get('/h').replyWithError(Object.assign(new Error('socket hang up'), { code: 'ECONNRESET' })).get('/h').reply(...json({ fine: true }));
     const { fetcher } = makeFetcher(dir);
