@@ -1,4 +1,4 @@
-import { afterAll, afterEach, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import nock from 'nock';
 import { readFile, writeFile, readdir } from 'node:fs/promises';
 import { join } from 'node:path';
@@ -6,17 +6,9 @@ import { main } from '../../src/cli/main.ts';
 import { hashTree } from '../../src/pipeline.ts';
 import { parseIndex } from '../../src/dataset/records.ts';
 import { BASE, scenarioBoards, scenarioRecipe, serveScenario } from '../dataset/scenario.ts';
-import { tempDir } from '../net/harness.ts';
+import { nockSandbox } from '../net/harness.ts';
 
-let dir: string;
-let cleanup: () => Promise<void>;
-beforeAll(() => nock.disableNetConnect());
-afterAll(() => nock.enableNetConnect());
-beforeEach(async () => ({ dir, cleanup } = await tempDir()));
-afterEach(async () => {
-  nock.cleanAll();
-  await cleanup();
-});
+const box = nockSandbox();
 
 function capture() {
   let out = '', err = '';
@@ -29,7 +21,7 @@ function capture() {
 
 async function built(overrides: Record<string, unknown> = {}) {
   serveScenario(scenarioBoards());
-  const recipe = await scenarioRecipe(dir, overrides);
+  const recipe = await scenarioRecipe(box.dir, overrides);
   const c = capture();
   const code = await main(['run', recipe.file, '--quiet'], c.io);
   expect(code, c.err()).toBe(0);
@@ -77,7 +69,7 @@ describe('verify', () => {
     expect(await main(['verify', recipe.file, '--json'], bad.io)).toBe(1);
     expect(JSON.parse(bad.out()).differing.map((d: { file: string }) => d.file)).toEqual([records[0].file]);
     expect([...(await hashTree(recipe.output)).entries()]).toEqual([...before.entries()]);
-    expect((await readdir(dir)).filter((n) => n.includes('.verify-'))).toEqual([]);
+    expect((await readdir(box.dir)).filter((n) => n.includes('.verify-'))).toEqual([]);
   });
 
   it('--refetch reports which sources changed at the server, and leaves the dataset alone', async () => {
@@ -131,12 +123,12 @@ describe('rights', () => {
   it('keeps credentials in URLs out of the lock, the card, the index and messages', async () => {
     serveScenario(scenarioBoards());
     const secret = BASE.replace('https://', 'https://curator:s3cret@');
-    const recipe = await scenarioRecipe(dir, {}, [{ manifest: `${secret}/manifests/east-cabinet.json` }]);
+    const recipe = await scenarioRecipe(box.dir, {}, [{ manifest: `${secret}/manifests/east-cabinet.json` }]);
     const c = capture();
     expect(await main(['run', recipe.file, '--quiet'], c.io), c.err()).toBe(0);
     for (const f of ['lock.json', 'card.json', 'card.md', 'index.jsonl', 'provenance.jsonld', 'failures.jsonl']) {
       expect(await readFile(join(recipe.output, f), 'utf8'), f).not.toContain('s3cret');
     }
-    expect(await readFile(join(dir, 'scenario.lock.json'), 'utf8')).not.toContain('s3cret');
+    expect(await readFile(join(box.dir, 'scenario.lock.json'), 'utf8')).not.toContain('s3cret');
   });
 });

@@ -1,4 +1,4 @@
-import { afterAll, afterEach, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import nock from 'nock';
 import { readFile } from 'node:fs/promises';
 import { join } from 'node:path';
@@ -7,17 +7,9 @@ import { runRecipe, hashTree } from '../../src/pipeline.ts';
 import { parseIndex, IndexRecord } from '../../src/dataset/records.ts';
 import { intersects } from '../../src/geometry/rect.ts';
 import { BASE, scenarioBoards, scenarioRecipe, serveScenario } from './scenario.ts';
-import { tempDir } from '../net/harness.ts';
+import { nockSandbox } from '../net/harness.ts';
 
-let dir: string;
-let cleanup: () => Promise<void>;
-beforeAll(() => nock.disableNetConnect());
-afterAll(() => nock.enableNetConnect());
-beforeEach(async () => ({ dir, cleanup } = await tempDir()));
-afterEach(async () => {
-  nock.cleanAll();
-  await cleanup();
-});
+const box = nockSandbox();
 
 const readIndex = async (out: string) => parseIndex(await readFile(join(out, 'index.jsonl'), 'utf8'));
 
@@ -25,12 +17,12 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
   it('is byte-identical at concurrency 1 and 8 with shuffled arrival', async () => {
     const boards = scenarioBoards();
     serveScenario(boards, { shuffleSeed: 1 });
-    const a = await scenarioRecipe(join(dir, 'a'));
-    const ra = await runRecipe(a, { concurrency: 1, cacheDir: join(dir, 'cache-a') });
+    const a = await scenarioRecipe(join(box.dir, 'a'));
+    const ra = await runRecipe(a, { concurrency: 1, cacheDir: join(box.dir, 'cache-a') });
     nock.cleanAll();
     serveScenario(boards, { shuffleSeed: 2 });
-    const b = await scenarioRecipe(join(dir, 'b'));
-    const rb = await runRecipe(b, { concurrency: 8, cacheDir: join(dir, 'cache-b') });
+    const b = await scenarioRecipe(join(box.dir, 'b'));
+    const rb = await runRecipe(b, { concurrency: 8, cacheDir: join(box.dir, 'cache-b') });
     expect(ra.build.failures).toBe(0);
     expect(ra.build.harvest.requests).toBeGreaterThan(20);
     const ha = await hashTree(a.output), hb = await hashTree(b.output);
@@ -41,8 +33,8 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
   it('keeps its promises patch by patch, and the card counts what the index holds', async () => {
     const boards = scenarioBoards();
     serveScenario(boards);
-    const recipe = await scenarioRecipe(dir);
-    const { build, plan } = await runRecipe(recipe, { cacheDir: join(dir, 'cache') });
+    const recipe = await scenarioRecipe(box.dir);
+    const { build, plan } = await runRecipe(recipe, { cacheDir: join(box.dir, 'cache') });
     expect(build.failures).toBe(0);
     const records = await readIndex(recipe.output);
     const regions = plan.regions;
@@ -75,8 +67,8 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
   it('a hand-checked patch: every index field', async () => {
     const boards = scenarioBoards();
     serveScenario(boards);
-    const recipe = await scenarioRecipe(dir, { split: { fractions: { train: 1, val: 0, test: 0 } } });
-    await runRecipe(recipe, { cacheDir: join(dir, 'cache') });
+    const recipe = await scenarioRecipe(box.dir, { split: { fractions: { train: 1, val: 0, test: 0 } } });
+    await runRecipe(recipe, { cacheDir: join(box.dir, 'cache') });
     const records = await readIndex(recipe.output);
     // Board b1 (v3 level 2), graining rectangle 20,20,120,100 in image px = canvas units; 0.25 mm/px → 4 px/mm gives 1 output px per unit.
     // Grid origins at multiples of 32 inside [20,140)×[20,120): x 32, 64, 96 (96+32=128 ≤ 140), y 32, 64 (64+32=96 ≤ 120).
@@ -116,8 +108,8 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
   it('near-duplicates served by two archives land in one split', async () => {
     const boards = scenarioBoards();
     serveScenario(boards);
-    const recipe = await scenarioRecipe(dir);
-    const { build } = await runRecipe(recipe, { cacheDir: join(dir, 'cache') });
+    const recipe = await scenarioRecipe(box.dir);
+    const { build } = await runRecipe(recipe, { cacheDir: join(box.dir, 'cache') });
     expect(build.nearDuplicatePairs).toBeGreaterThan(0);
     const records = await readIndex(recipe.output);
     const b1 = records.filter((r) => r.canvas === `${BASE}/canvas/b1`);
@@ -130,11 +122,11 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
   it('adding a source moves no existing patch between splits', async () => {
     const boards = scenarioBoards();
     serveScenario(boards);
-    const east = await scenarioRecipe(join(dir, 'one'), {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }]);
-    await runRecipe(east, { cacheDir: join(dir, 'cache') });
+    const east = await scenarioRecipe(join(box.dir, 'one'), {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }]);
+    await runRecipe(east, { cacheDir: join(box.dir, 'cache') });
     const before = new Map((await readIndex(east.output)).map((r) => [r.id, r.split]));
-    const both = await scenarioRecipe(join(dir, 'two'), {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }, { manifest: `${BASE}/manifests/west-cabinet.json` }]);
-    const { build } = await runRecipe(both, { cacheDir: join(dir, 'cache') });
+    const both = await scenarioRecipe(join(box.dir, 'two'), {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }, { manifest: `${BASE}/manifests/west-cabinet.json` }]);
+    const { build } = await runRecipe(both, { cacheDir: join(box.dir, 'cache') });
     expect(build.failures).toBe(0);
     const after = await readIndex(both.output);
     let common = 0;

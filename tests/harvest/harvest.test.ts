@@ -1,4 +1,4 @@
-import { afterAll, afterEach, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import nock from 'nock';
 import { harvestCrops } from '../../src/harvest/harvest.ts';
 import { stitchCrop } from '../../src/harvest/stitch.ts';
@@ -6,31 +6,23 @@ import { parseInfoJson, ImageService } from '../../src/iiif/image-service.ts';
 import { planCrop } from '../../src/plan/plan-crop.ts';
 import type { Placement } from '../../src/geometry/placement.ts';
 import { coordError, coordImage, decodeCoord, mockImageService } from '../coord-image.ts';
-import { makeFetcher, tempDir } from '../net/harness.ts';
+import { makeFetcher, nockSandbox } from '../net/harness.ts';
 
 const HOST = 'https://tiles.example.org';
-let dir: string;
-let cleanup: () => Promise<void>;
-beforeAll(() => nock.disableNetConnect());
-afterAll(() => nock.enableNetConnect());
-beforeEach(async () => ({ dir, cleanup } = await tempDir()));
-afterEach(async () => {
-  nock.cleanAll();
-  await cleanup();
-});
+const box = nockSandbox();
 
 const src = coordImage(1200, 900);
 const whole = (s: ImageService): Placement => ({ target: { x: 0, y: 0, w: s.width, h: s.height }, source: { x: 0, y: 0, w: s.width, h: s.height }, imageWidth: s.width, imageHeight: s.height });
 
 async function serviceFor(path: string, opts: Parameters<typeof mockImageService>[3]) {
   const mock = mockImageService(HOST, path, src, opts);
-  const { fetcher } = makeFetcher(dir, { perHostRate: 1000 });
+  const { fetcher } = makeFetcher(box.dir, { perHostRate: 1000 });
   const info = await fetcher.get(mock.infoUrl, 'json');
   return { mock, service: parseInfoJson(JSON.parse(info.body.toString()), mock.infoUrl) };
 }
 
 async function bodies(urls: string[]) {
-  const { fetcher } = makeFetcher(dir, { mode: 'offline' });
+  const { fetcher } = makeFetcher(box.dir, { mode: 'offline' });
   const map = new Map<string, Buffer>();
   for (const u of urls) map.set(u, (await fetcher.get(u, 'image')).body);
   return map;
@@ -42,7 +34,7 @@ describe('harvesting crops', () => {
     const a = planCrop({ service, placement: whole(service), scale: 1, canvasRect: { x: 200, y: 200, w: 100, h: 100 }, format: 'png' });
     const b = planCrop({ service, placement: whole(service), scale: 1, canvasRect: { x: 240, y: 220, w: 60, h: 60 }, format: 'png' });
     expect(a.stitch.pieces.length).toBe(4); // crosses the 256 boundary both ways
-    const { fetcher } = makeFetcher(dir, { perHostRate: 1000 });
+    const { fetcher } = makeFetcher(box.dir, { perHostRate: 1000 });
     const result = await harvestCrops([a, b], fetcher);
     expect(result.summary).toMatchObject({ crops: 2, served: 2, failed: 0, uniquePieces: 4, requests: 4 });
     for (const [path, n] of mock.counts) if (path !== 'info.json') expect(n).toBe(1);
@@ -58,7 +50,7 @@ describe('harvesting crops', () => {
     const { service } = await serviceFor('/iiif/l2', { version: 3, level: 2, maxWidth: 128 });
     const crop = planCrop({ service, placement: whole(service), scale: 1, canvasRect: { x: 300, y: 100, w: 300, h: 200 }, format: 'png' });
     expect(crop.stitch.pieces.length).toBe(6);
-    const { fetcher } = makeFetcher(dir, { perHostRate: 1000 });
+    const { fetcher } = makeFetcher(box.dir, { perHostRate: 1000 });
     const r = await harvestCrops([crop], fetcher);
     expect(r.failures).toEqual([]);
     const map = await bodies(crop.stitch.pieces.map((p) => p.url));
@@ -70,7 +62,7 @@ describe('harvesting crops', () => {
     const { service } = await serviceFor('/iiif/liar', { version: 3, level: 2, silentlyShrink: true, maxWidth: 128 });
     const honest = { ...service, maxWidth: undefined, maxHeight: undefined }; // as if the limit were not advertised
     const crop = planCrop({ service: honest, placement: whole(service), scale: 1, canvasRect: { x: 0, y: 0, w: 300, h: 200 }, format: 'png' });
-    const { fetcher } = makeFetcher(dir, { perHostRate: 1000 });
+    const { fetcher } = makeFetcher(box.dir, { perHostRate: 1000 });
     const r = await harvestCrops([crop], fetcher);
     expect(r.summary.failed).toBe(1);
     expect(r.failures[0]).toMatchObject({ stage: 'crop', key: crop.key, reason: expect.stringMatching(/returned 128×85 for a 300×200 request/) });
@@ -80,10 +72,10 @@ describe('harvesting crops', () => {
     const { mock, service } = await serviceFor('/iiif/resume', { version: 3, level: 2 });
     const crops = [0, 1, 2, 3, 4, 5].map((k) => planCrop({ service, placement: whole(service), scale: 0.5, canvasRect: { x: k * 150, y: 100, w: 140, h: 140 }, format: 'png' }));
     // First run: interrupted after three crops (as if killed).
-    const first = makeFetcher(dir, { perHostRate: 1000 });
+    const first = makeFetcher(box.dir, { perHostRate: 1000 });
     await harvestCrops(crops.slice(0, 3), first.fetcher);
     const before = new Map(mock.counts);
-    const second = makeFetcher(dir, { perHostRate: 1000 });
+    const second = makeFetcher(box.dir, { perHostRate: 1000 });
     const r = await harvestCrops(crops, second.fetcher);
     expect(r.summary).toMatchObject({ served: 6, requests: 3, fromCache: 3 });
     for (const crop of crops.slice(0, 3)) {
@@ -95,7 +87,7 @@ describe('harvesting crops', () => {
   it('orders served crops and failures by key, not by arrival', async () => {
     const { service } = await serviceFor('/iiif/order', { version: 3, level: 2 });
     const crops = [5, 3, 1, 4, 2].map((k) => planCrop({ service, placement: whole(service), scale: 1, canvasRect: { x: k * 100, y: 0, w: 50, h: 50 }, format: 'png' }));
-    const { fetcher } = makeFetcher(dir, { perHostRate: 1000, concurrency: 8, perHost: 8 });
+    const { fetcher } = makeFetcher(box.dir, { perHostRate: 1000, concurrency: 8, perHost: 8 });
     const r = await harvestCrops(crops, fetcher);
     expect([...r.served.keys()]).toEqual(crops.map((c) => c.key).sort());
   });

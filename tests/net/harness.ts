@@ -1,3 +1,5 @@
+import nock from 'nock';
+import { afterAll, afterEach, beforeAll, beforeEach } from 'vitest';
 import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -44,3 +46,24 @@ export function makeFetcher(cacheDir: string, overrides: Partial<FetcherOptions>
 /** Smallest valid images, for bodies that must sniff as images. */
 export const PNG_1x1 = Buffer.from('89504e470d0a1a0a0000000d4948445200000001000000010806000000', 'hex');
 export const JPEG_HEAD = Buffer.from('ffd8ffe000104a46494600010100000100010000', 'hex');
+
+/**
+ * Registers the usual hooks of a nock test file: real connections disabled,
+ * a fresh temporary folder per test, interceptors and folder cleaned after it.
+ */
+export function nockSandbox(): { readonly dir: string } {
+  let dir = '';
+  let cleanup = async () => {};
+  beforeAll(() => nock.disableNetConnect());
+  afterAll(() => nock.enableNetConnect());
+  beforeEach(async () => ({ dir, cleanup } = await tempDir()));
+  afterEach(async () => {
+    nock.cleanAll();
+    await cleanup();
+  });
+  return {
+    get dir() {
+      return dir;
+    },
+  };
+}

@@ -1,19 +1,11 @@
-import { afterAll, afterEach, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import nock from 'nock';
 import { resolveSources } from '../../src/sources/resolve.ts';
 import { fixture } from '../helpers.ts';
-import { makeFetcher, tempDir } from '../net/harness.ts';
+import { makeFetcher, nockSandbox } from '../net/harness.ts';
 
 const H = 'https://iiif.example.org';
-let dir: string;
-let cleanup: () => Promise<void>;
-beforeAll(() => nock.disableNetConnect());
-afterAll(() => nock.enableNetConnect());
-beforeEach(async () => ({ dir, cleanup } = await tempDir()));
-afterEach(async () => {
-  nock.cleanAll();
-  await cleanup();
-});
+const box = nockSandbox();
 const ld = (doc: unknown) => [200, JSON.stringify(doc), { 'content-type': 'application/ld+json' }] as [number, string, Record<string, string>];
 
 describe('resolving sources from nock-served fixtures', () => {
@@ -29,7 +21,7 @@ describe('resolving sources from nock-served fixtures', () => {
       .get('/iiif/3/board-a/info.json').reply(...ld({ ...(fixture('info/v3-spec-example.json') as object), id: `${H}/iiif/3/board-a` }))
       .get('/iiif/2/board-c/info.json').reply(...ld({ ...(fixture('info/v2-level2-plain.json') as object), '@id': `${H}/iiif/2/board-c`, width: 3536, height: 4999 }));
     nock('https://images.example.net').get('/fcgi-bin/iipsrv.fcgi').query({ IIIF: 'boards/board 07.tif/info.json' }).reply(...ld(fixture('info/v2-level1-query-id.json')));
-    const { fetcher } = makeFetcher(dir, { perHostRate: 1000 });
+    const { fetcher } = makeFetcher(box.dir, { perHostRate: 1000 });
     const r = await resolveSources([{ kind: 'collection', location: `${H}/collections/top` }], fetcher);
     expect(scope.isDone()).toBe(true);
     expect(r.failures).toEqual([]);
@@ -49,7 +41,7 @@ describe('resolving sources from nock-served fixtures', () => {
 
   it('records an unreachable manifest and carries on with the rest', async () => {
     nock(H).get('/manifests/gone').reply(404).get('/manifests/marble-1').reply(...ld({ '@context': 'http://iiif.io/api/presentation/3/context.json', id: `${H}/manifests/marble-1`, type: 'Manifest', items: [{ id: `${H}/c`, type: 'Canvas', width: 10, height: 10 }] }));
-    const { fetcher } = makeFetcher(dir, { perHostRate: 1000 });
+    const { fetcher } = makeFetcher(box.dir, { perHostRate: 1000 });
     const r = await resolveSources([{ kind: 'manifest', location: `${H}/manifests/gone` }, { kind: 'manifest', location: `${H}/manifests/marble-1` }], fetcher);
     expect(r.manifests).toHaveLength(1);
     expect(r.failures).toEqual([{ stage: 'source', key: `${H}/manifests/gone`, url: `${H}/manifests/gone`, status: 404, attempts: 1, reason: 'HTTP 404' }]);
