@@ -42,7 +42,7 @@ export interface BuildOptions {
 }
 
 /** Bump when cutting, encoding or hashing changes, so cached cut results are not reused. */
-const DERIVED_VERSION = 1;
+const DERIVED_VERSION = 2;
 
 interface Cut {
   sha256: string;
@@ -97,17 +97,21 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
     };
     // Pass 1 (I/O): crops whose cut results are cached and intact are copied.
     const ioLimit = pLimit(16);
+    /** Pieces a server returned ±1 pixel off (within tolerance) and we resampled to the planned size, per crop. */
+    const resampledByCrop = new Map<string, number>();
     const reused = new Set<string>();
     await Promise.all(
       served.map((key) =>
         ioLimit(async () => {
           const patches = byCrop.get(key) ?? [];
-          const known = await cache.getDerived<Record<string, Cut>>(derivedKeyOf(key));
+          const derived = await cache.getDerived<{ cuts: Record<string, Cut>; resampledPieces: number }>(derivedKeyOf(key));
+          const known = derived?.cuts;
           if (!known || !patches.every((p) => known[p.id])) return;
           const bodies = await Promise.all(patches.map((p) => cache.getBody(known[p.id].sha256)));
           if (!bodies.every((b) => b !== undefined)) return;
           await Promise.all(patches.map((p, i) => writeFile(join(staging, `${p.id}.png`), bodies[i]!)));
           for (const p of patches) cuts.set(p.id, known[p.id]);
+          resampledByCrop.set(key, derived!.resampledPieces);
           reused.add(key);
           opts.onProgress?.('cut', ++done, served.length);
         }),
@@ -123,7 +127,8 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
           try {
             const bodies = new Map<string, Buffer>();
             for (const piece of crop.stitch.pieces) bodies.set(piece.url, (await fetchPiece(fetcher, piece)).body);
-            const { image } = await stitchCrop(crop, (u) => bodies.get(u));
+            const { image, resampledPieces } = await stitchCrop(crop, (u) => bodies.get(u));
+            resampledByCrop.set(key, resampledPieces);
             const made: Record<string, Cut> = {};
             for (const p of patches) {
               const patch = extractRgb(image, p.inCrop.x, p.inCrop.y, p.inCrop.w, p.inCrop.h);
@@ -134,7 +139,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
               cuts.set(p.id, cut);
               made[p.id] = cut;
             }
-            await cache.putDerived(derivedKeyOf(key), made);
+            await cache.putDerived(derivedKeyOf(key), { cuts: made, resampledPieces });
           } catch (err) {
             const reason = err instanceof FetchError ? err.reason : (err as Error).message;
             failures.push({ stage: 'crop', key, reason: `could not be stitched: ${reason}` });
@@ -185,6 +190,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
         annotation: p.annotationId ?? null,
         annotator: p.annotator ?? null,
         sourceLabel: p.rawLabel ?? null,
+        bodyChoice: ctx.choice ?? null,
         service: { id: redactUrl(ctx.service.id), version: ctx.service.version, level: ctx.service.level },
         requests: crop.stitch.pieces.map((x) => redactUrl(x.url)),
         responses,
@@ -216,6 +222,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
       sources: sources.documents.map((d) => ({ ...d, location: /^https?:/.test(d.location) ? redactUrl(d.location) : relative(dirname(recipe.file), d.location) })),
       tool,
       droppedPatches: dropped,
+      resampledPieces: [...resampledByCrop.values()].reduce((a, b) => a + b, 0),
     });
     await writeFile(tx.path('index.jsonl'), serialiseIndex(records));
     await mkdir(tx.path('splits'), { recursive: true });

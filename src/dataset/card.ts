@@ -19,6 +19,7 @@ export interface CardInputs {
   sources: { location: string; kind: string; sha256: string }[];
   tool: { name: string; version: string; sharp: string; libvips: string; node: string };
   droppedPatches: number;
+  resampledPieces: number;
 }
 
 const count = <T>(items: readonly T[], key: (t: T) => string): Record<string, number> => {
@@ -84,6 +85,7 @@ export function buildCard(i: CardInputs) {
       request: i.recipe.request,
       services: [...services.values()].sort((a, b) => byString(a.id, b.id)),
       crops: i.plan.crops.length,
+      resampledPieces: i.resampledPieces,
       requests: new Set(i.plan.crops.flatMap((c) => c.stitch.pieces.map((p) => p.url))).size,
       sources: i.sources,
       recipe: i.recipeShown,
@@ -152,7 +154,7 @@ export function renderCardMarkdown(card: Card): string {
   lines.push('## Collection process', '');
   lines.push(`Made by ${col.tool.name} ${col.tool.version} (sharp ${col.tool.sharp}, libvips ${col.tool.libvips}, Node.js ${col.tool.node}) with seed \`${col.seed}\`.`, '');
   lines.push(`Scale: \`${JSON.stringify(col.scale)}\`. Patches: \`${JSON.stringify(col.patch)}\`. Requests: \`${JSON.stringify(col.request)}\`.`, '');
-  lines.push(`${col.crops} crops from ${col.requests} distinct image requests.`, '');
+  lines.push(`${col.crops} crops from ${col.requests} distinct image requests; ${col.resampledPieces} piece(s) came back one pixel off the planned size (within the spec's rounding) and were resampled to it.`, '');
   table(['image service', 'Image API', 'level', 'patches'], col.services.map((s) => [s.id, s.version, s.level, s.patches]));
   lines.push('Source documents:', '');
   table(['kind', 'location', 'sha256'], col.sources.map((s) => [s.kind, s.location, s.sha256.slice(0, 16)]));

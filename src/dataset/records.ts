@@ -19,6 +19,8 @@ export interface IndexRecord {
   annotation: string | null;
   annotator: string | null;
   sourceLabel: string | null;
+  /** When the painting body was a Choice: the item taken (the first, Web Annotation §3.2.7) and how many there were. */
+  bodyChoice: { chosen: string; of: number } | null;
   service: { id: string; version: number; level: number };
   requests: string[];
   responses: { url: string; sha256: string }[];

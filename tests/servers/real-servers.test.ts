@@ -65,6 +65,7 @@ function manifestFor(serviceId: string, service: Record<string, unknown>): unkno
       canvas(1, cw, ch, 'https://boards.example.org/canvas/1', [
         tag('rect', 'oak', 'https://boards.example.org/canvas/1#xywh=50,50,200,150'),
         tag('big', 'oak', 'https://boards.example.org/canvas/1#xywh=250,200,320,220'),
+        tag('edge', 'oak', 'https://boards.example.org/canvas/1#xywh=480,380,120,70'), // touches the image's right and bottom edges
         tag('poly', 'marble', { type: 'SpecificResource', source: 'https://boards.example.org/canvas/1', selector: { type: 'SvgSelector', value: '<svg><polygon points="300,30 560,30 300,180"/></svg>' } }),
       ]),
       canvas(2, cw + 200, ch + 100, `https://boards.example.org/canvas/2#xywh=200,100,${cw},${ch}`, [
@@ -169,6 +170,14 @@ describe.skipIf(!iipAvailable())('Image API 2, level 1: iipsrv behind lighttpd',
     const id = `${srv.base}/truth.tif`;
     const r = await runAgainst('iipsrv', id, { '@id': id, '@type': 'ImageService2', profile: 'http://iiif.io/api/image/2/level1.json' }, 2);
     expect(r.build.failures).toBe(0);
+    // a region touching the image edge is requested clipped, never past the edge (iipsrv crashes on those)
+    const edge = r.records.filter((x) => x.annotation?.endsWith('/edge'));
+    expect(edge.length).toBeGreaterThan(0);
+    for (const u of edge.flatMap((x) => x.requests)) {
+      const [x, y, w, h] = /\/(\d+),(\d+),(\d+),(\d+)\//.exec(u)!.slice(1).map(Number);
+      expect(x + w).toBeLessThanOrEqual(W);
+      expect(y + h).toBeLessThanOrEqual(H);
+    }
     const big = r.records.find((x) => x.annotation?.endsWith('/big'))!;
     expect(big.requests.length).toBeGreaterThan(1); // 640×440 crop split under 256×256
     for (const u of big.requests) {
