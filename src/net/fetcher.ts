@@ -155,7 +155,7 @@ export class Fetcher {
         if (body) return { facts: { url, ...locked }, body, fromCache: true, attempts: 0 };
       }
     }
-    if (mode === 'offline') throw new FetchError(url, 'not in the cache (--offline)', { attempts: 0, code: 'E_OFFLINE' });
+    if (mode === 'offline') throw new FetchError(url, 'not in the cache, and this run may not fetch (offline; run harvest or run first)', { attempts: 0, code: 'E_OFFLINE' });
     const fetched = await this.withGlobalSlot(() => this.fetchWithRetries(url, kind));
     if (mode === 'frozen' && locked && fetched.facts.sha256 !== locked.sha256) {
       throw new FetchError(url, `body changed at the source: the lock has sha256 ${locked.sha256}, the server sent ${fetched.facts.sha256}`, { attempts: fetched.attempts, code: 'E_FROZEN' });
