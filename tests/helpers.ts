@@ -17,3 +17,16 @@ export function thrown(fn: () => unknown): Error & Record<string, unknown> {
   }
   throw new Error('expected an error, none was thrown');
 }
+
+/** Streams for the CLI's main() that collect what it writes. */
+export function capture() {
+  let out = '', err = '';
+  return {
+    io: {
+      stdout: { write: (s: string) => ((out += s), true) } as unknown as NodeJS.WriteStream,
+      stderr: { write: (s: string) => ((err += s), true) } as unknown as NodeJS.WriteStream,
+    },
+    out: () => out,
+    err: () => err,
+  };
+}

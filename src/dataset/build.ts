@@ -5,7 +5,7 @@ import pLimit from 'p-limit';
 import { FetchError, redactUrl } from '../errors.ts';
 import { FailureRecord, fetchPiece, harvestCrops, HarvestResult } from '../harvest/harvest.ts';
 import { encodePng, extractRgb } from '../harvest/pixels.ts';
-import { stitchCrop } from '../harvest/stitch.ts';
+import { memoisedDecoder, stitchCrop } from '../harvest/stitch.ts';
 import type { Fetcher } from '../net/fetcher.ts';
 import { lockFrom, serialiseLock } from '../net/lock.ts';
 import type { DatasetPlan, PatchPlan } from '../plan/plan-dataset.ts';
@@ -119,6 +119,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
     );
     // Pass 2 (CPU): stitch, cut, encode and hash the rest.
     const limit = pLimit(opts.cpuConcurrency ?? 2);
+    const decode = memoisedDecoder();
     await Promise.all(
       served.filter((key) => !reused.has(key)).map((key) =>
         limit(async () => {
@@ -127,7 +128,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
           try {
             const bodies = new Map<string, Buffer>();
             for (const piece of crop.stitch.pieces) bodies.set(piece.url, (await fetchPiece(fetcher, piece)).body);
-            const { image, resampledPieces } = await stitchCrop(crop, (u) => bodies.get(u));
+            const { image, resampledPieces } = await stitchCrop(crop, (u) => bodies.get(u), decode);
             resampledByCrop.set(key, resampledPieces);
             const made: Record<string, Cut> = {};
             for (const p of patches) {

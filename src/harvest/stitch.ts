@@ -8,14 +8,18 @@ import { RgbImage, blit, decodeRgb, extractRgb, resizeRgb } from './pixels.ts';
  * then the recipe's rectangle is extracted and resampled to the output size.
  * Throws when a body is missing or a size is outside tolerance.
  */
-export async function stitchCrop(crop: CropRequest, bodyOf: (url: string) => Buffer | undefined): Promise<{ image: RgbImage; resampledPieces: number }> {
+export async function stitchCrop(
+  crop: CropRequest,
+  bodyOf: (url: string) => Buffer | undefined,
+  decode: (url: string, body: Buffer) => Promise<RgbImage> = (_url, body) => decodeRgb(body),
+): Promise<{ image: RgbImage; resampledPieces: number }> {
   const { stitch } = crop;
   const mosaic: RgbImage = { width: stitch.mosaicWidth, height: stitch.mosaicHeight, data: Buffer.alloc(stitch.mosaicWidth * stitch.mosaicHeight * 3) };
   let resampledPieces = 0;
   for (const piece of stitch.pieces) {
     const body = bodyOf(piece.url);
     if (!body) throw new Error(`piece ${piece.url} is not available`);
-    let img = await decodeRgb(body);
+    let img = await decode(piece.url, body);
     if (Math.abs(img.width - piece.expectWidth) > piece.tolerance || Math.abs(img.height - piece.expectHeight) > piece.tolerance) {
       throw new SizeMismatch(piece.url, piece.expectWidth, piece.expectHeight, img.width, img.height);
     }
@@ -36,4 +40,25 @@ export class SizeMismatch extends Error {
     super(`the server returned ${gotWidth}×${gotHeight} for a ${expectWidth}×${expectHeight} request (a size limit applied silently, or a wrong scale)`);
     this.name = 'SizeMismatch';
   }
+}
+
+/**
+ * A decoder that remembers the last `capacity` decoded pieces, so a level-0 tile
+ * shared by several crops is decoded once, not once per crop.
+ */
+export function memoisedDecoder(capacity = 64): (url: string, body: Buffer) => Promise<RgbImage> {
+  const cache = new Map<string, Promise<RgbImage>>();
+  return (url, body) => {
+    let p = cache.get(url);
+    if (p) {
+      cache.delete(url);
+      cache.set(url, p);
+      return p;
+    }
+    p = decodeRgb(body);
+    cache.set(url, p);
+    p.catch(() => cache.delete(url));
+    if (cache.size > capacity) cache.delete(cache.keys().next().value as string);
+    return p;
+  };
 }

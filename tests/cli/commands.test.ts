@@ -6,16 +6,9 @@ import { main } from '../../src/cli/main.ts';
 import { hashTree } from '../../src/pipeline.ts';
 import { BASE, scenarioBoards, scenarioRecipe, serveScenario } from '../dataset/scenario.ts';
 import { nockSandbox } from '../net/harness.ts';
+import { capture } from '../helpers.ts';
 
 const box = nockSandbox();
-function capture() {
-  let out = '', err = '';
-  return {
-    io: { stdout: { write: (s: string) => ((out += s), true) } as unknown as NodeJS.WriteStream, stderr: { write: (s: string) => ((err += s), true) } as unknown as NodeJS.WriteStream },
-    out: () => out,
-    err: () => err,
-  };
-}
 
 describe('plan, harvest, build, --frozen', () => {
   it('plan prints regions per class, requests, estimated bytes and servers with their levels, fetching no image', async () => {

@@ -7,17 +7,10 @@ import { hashTree } from '../../src/pipeline.ts';
 import { parseIndex } from '../../src/dataset/records.ts';
 import { BASE, scenarioBoards, scenarioRecipe, serveScenario } from '../dataset/scenario.ts';
 import { nockSandbox } from '../net/harness.ts';
+import { capture } from '../helpers.ts';
 
 const box = nockSandbox();
 
-function capture() {
-  let out = '', err = '';
-  return {
-    io: { stdout: { write: (s: string) => ((out += s), true) } as unknown as NodeJS.WriteStream, stderr: { write: (s: string) => ((err += s), true) } as unknown as NodeJS.WriteStream },
-    out: () => out,
-    err: () => err,
-  };
-}
 
 async function built(overrides: Record<string, unknown> = {}) {
   serveScenario(scenarioBoards());

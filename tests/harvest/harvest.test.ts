@@ -92,3 +92,18 @@ describe('harvesting crops', () => {
     expect([...r.served.keys()]).toEqual(crops.map((c) => c.key).sort());
   });
 });
+
+describe('decoding shared pieces', () => {
+  it('decodes a piece shared by several crops once', async () => {
+    const { memoisedDecoder } = await import('../../src/harvest/stitch.ts');
+    const sharp = (await import('sharp')).default;
+    const png = await sharp({ create: { width: 8, height: 8, channels: 3, background: '#123456' } }).png().toBuffer();
+    const decode = memoisedDecoder(2);
+    const a = decode('u1', png), b = decode('u1', png);
+    expect(a).toBe(b);
+    expect((await a).data.subarray(0, 3)).toEqual(Buffer.from([0x12, 0x34, 0x56]));
+    decode('u2', png);
+    decode('u3', png); // capacity 2: u1 is evicted
+    expect(decode('u1', png)).not.toBe(a);
+  });
+});
