@@ -269,15 +269,12 @@ function planNegatives(
   for (const o of order) if (left-- > 0) quota[o.i]++;
 
   // Candidate positions per canvas: stride = size, inside the painted image, clear of every annotated area by the margin.
-  const candidates = new Map<string, { list: Candidate[]; prep: Ready | undefined }>();
-  for (const canvasId of canvasIds) {
+  // Candidates are computed per canvas when needed and not kept: memory stays flat in the number of canvases.
+  const candidatesOf = (canvasId: string): { list: Candidate[]; prep: Ready | undefined } => {
     const c = canvases.get(canvasId)!;
     const whole = { x: 0, y: 0, w: c.canvas.width, h: c.canvas.height };
     const prep = prepare(canvasId, whole);
-    if ('skip' in prep) {
-      candidates.set(canvasId, { list: [], prep: undefined });
-      continue;
-    }
+    if ('skip' in prep) return { list: [], prep: undefined };
     const px: number = prep.ctx.scale.pixelsPerCanvasUnit;
     const painted = innerOutputBox(prep.placement.target, px);
     const obs = obstacles.get(canvasId) ?? [];
@@ -290,7 +287,13 @@ function planNegatives(
       }
     }
     list.sort((a, b) => a.rank - b.rank || a.v - b.v || a.u - b.u);
-    candidates.set(canvasId, { list, prep });
+    return { list, prep };
+  };
+  const regionsByCanvas = new Map<string, Region[]>();
+  for (const r of regions) {
+    const list = regionsByCanvas.get(r.canvasId);
+    if (list) list.push(r);
+    else regionsByCanvas.set(r.canvasId, [r]);
   }
 
   const groupOfCanvas = (canvasId: string) => {
@@ -301,7 +304,8 @@ function planNegatives(
   let borrowed = 0;
   let planned = 0;
   const take = (canvasId: string, n: number): number => {
-    const entry = candidates.get(canvasId)!;
+    if (n <= 0) return 0;
+    const entry = candidatesOf(canvasId);
     const start = taken.get(canvasId) ?? 0;
     const chosen = entry.list.slice(start, start + n);
     taken.set(canvasId, start + chosen.length);
@@ -321,8 +325,7 @@ function planNegatives(
       const cx = cand.u / px + size / px / 2, cy = cand.v / px + size / px / 2;
       let best: Region | undefined;
       let bestD = Infinity;
-      for (const r of regions) {
-        if (r.canvasId !== cand.canvasId) continue;
+      for (const r of regionsByCanvas.get(cand.canvasId) ?? []) {
         const d = Math.hypot(r.bounds.x + r.bounds.w / 2 - cx, r.bounds.y + r.bounds.h / 2 - cy);
         if (d < bestD) {
           best = r;
