@@ -6,7 +6,6 @@ import { checkContent } from './content-check.ts';
 import { HostGate } from './host-gate.ts';
 import { lockedEntry, LockFile } from './lock.ts';
 import { decideRetry, RetryPolicy, DEFAULT_RETRY_POLICY } from './retry-policy.ts';
-import { sha256Hex } from '../util/hash.ts';
 import { VERSION } from '../version.ts';
 
 export type FetchKind = 'json' | 'image';
@@ -326,6 +325,3 @@ export function hostMatches(host: string, pattern: string): boolean {
   const h = host.toLowerCase(), p = pattern.toLowerCase();
   return p.startsWith('*.') ? h.endsWith(p.slice(1)) || h === p.slice(2) : h === p;
 }
-
-/** sha256 of a body, for callers that check bodies they did not fetch. */
-export const bodyHash = sha256Hex;

@@ -3,8 +3,7 @@ import { intersects, tidyRect } from '../geometry/rect.ts';
 import { integralOf, rasterise } from '../geometry/mask.ts';
 import { Placement, canvasToImage } from '../geometry/placement.ts';
 import type { ImageService } from '../iiif/image-service.ts';
-import { mergeProvenance, PaintedImage, Provenance, readProvenance } from '../iiif/presentation.ts';
-import { JsonView } from '../iiif/json-view.ts';
+import { mergeProvenance, PaintedImage, Provenance } from '../iiif/presentation.ts';
 import { CanvasContext, extractRegions, labelIndex, Region, SkippedRegion } from '../annotation/regions.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ManifestEntry, ResolvedSources } from '../sources/resolve.ts';
@@ -372,9 +371,4 @@ function planNegatives(
     }
   }
   return { wanted, planned, borrowedWithinGroup: borrowed, shortfall: wanted - planned };
-}
-
-/** Reads provenance from a raw document (used by callers that hold JSON). */
-export function provenanceOf(doc: unknown, source: string): Provenance {
-  return readProvenance(JsonView.of(doc, source, 'E_MANIFEST_INVALID'));
 }

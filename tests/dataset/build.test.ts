@@ -24,6 +24,7 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
     const b = await scenarioRecipe(join(box.dir, 'b'));
     const rb = await runRecipe(b, { concurrency: 8, cacheDir: join(box.dir, 'cache-b') });
     expect(ra.build.failures).toBe(0);
+    expect(rb.build.failures).toBe(0);
     expect(ra.build.harvest.requests).toBeGreaterThan(20);
     const ha = await hashTree(a.output), hb = await hashTree(b.output);
     expect(ha.size).toBeGreaterThan(40);

@@ -1,5 +1,4 @@
 import { describe, expect, it } from 'vitest';
-import nock from 'nock';
 import { harvestCrops } from '../../src/harvest/harvest.ts';
 import { stitchCrop } from '../../src/harvest/stitch.ts';
 import { parseInfoJson, ImageService } from '../../src/iiif/image-service.ts';
