@@ -21,7 +21,7 @@ for (let i = 0; i < n; i++) {
   const info = { '@context': 'http://iiif.io/api/image/3/context.json', id: svcId, type: 'ImageService3', protocol: 'http://iiif.io/api/image', profile: 'level1', width: 2000, height: 1500 };
   canvases.push({ id: `${B}/canvas/${i}`, type: 'Canvas', width: 2000, height: 1500, items: [{ id: `${B}/canvas/${i}/p`, type: 'AnnotationPage', items: [{ id: `${B}/canvas/${i}/a`, type: 'Annotation', motivation: 'painting', target: `${B}/canvas/${i}`, body: { id: `${svcId}/full/max/0/default.jpg`, type: 'Image', service: [info] } }] }] });
   services.set(svcId, parseInfoJson(info, `${svcId}/info.json`));
-  annotations.push({ id: `${B}/anno/${i}`, source: 'bench', pointer: '', labels: [i % 2 ? 'oak' : 'marble'], motivations: ['tagging'], targets: [{ canvasId: `${B}/canvas/${i}`, selector: { kind: 'xywh', fragment: { unit: 'pixel', x: 200, y: 200, w: 600, h: 400 } }, pointer: '' }] });
+  annotations.push({ id: `${B}/anno/${i}`, source: 'bench', pointer: '', labels: [i % 2 ? 'oak' : 'marble'], tags: [{ value: i % 2 ? 'oak' : 'marble' }], motivations: ['tagging'], targets: [{ canvasId: `${B}/canvas/${i}`, selector: { kind: 'xywh', fragment: { unit: 'pixel', x: 200, y: 200, w: 600, h: 400 } }, pointer: '' }] });
 }
 const t0 = performance.now();
 const manifest = parseManifest({ '@context': 'http://iiif.io/api/presentation/3/context.json', id: `${B}/m`, type: 'Manifest', items: canvases }, 'bench');

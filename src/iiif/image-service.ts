@@ -1,7 +1,8 @@
 import { JsonView } from './json-view.ts';
 import { pickText, readLanguageMap } from './language-map.ts';
 
-export type ImageApiVersion = 2 | 3;
+/** The Image API major version: 1 (1.0/1.1), 2 (2.0/2.1) or 3 (3.0). */
+export type ImageApiVersion = 1 | 2 | 3;
 export type ComplianceLevel = 0 | 1 | 2;
 
 export interface TileSpec {
@@ -55,6 +56,8 @@ export const MAX_AREA = 100_000_000_000;
 
 const V3_CONTEXT = 'http://iiif.io/api/image/3/context.json';
 const V2_CONTEXT = 'http://iiif.io/api/image/2/context.json';
+// Image API 1.1 §5 names the Stanford URI; IIIF now hosts a 1.x context at iiif.io (both are read as version 1).
+const V1_CONTEXTS = ['http://library.stanford.edu/iiif/image-api/1.1/context.json', 'http://iiif.io/api/image/1/context.json'];
 const PHYSDIM_PROFILE = 'http://iiif.io/api/annex/services/physdim';
 
 // Features each compliance level implies (Image API 3.0 level{0,1,2}.json; Image API 2.1 level{0,1,2}.json).
@@ -70,21 +73,50 @@ const LEVEL_FEATURES: Record<ImageApiVersion, Record<ComplianceLevel, string[]>>
     1: [...HTTP_FEATURES, 'regionByPx', 'sizeByH', 'sizeByPct', 'sizeByW'],
     2: [...HTTP_FEATURES, 'regionByPx', 'regionByPct', 'rotationBy90s', 'sizeByConfinedWh', 'sizeByDistortedWh', 'sizeByH', 'sizeByPct', 'sizeByW', 'sizeByWh'],
   },
+  // Image API 1.1 compliance: level 0 is full/full/0/native only; level 1 adds x,y,w,h regions, w, ,h and pct:n sizes
+  // and rotation by 90s; level 2 adds pct: regions, w,h (which may distort) and !w,h.
+  1: {
+    0: [],
+    1: ['regionByPx', 'sizeByH', 'sizeByPct', 'sizeByW', 'rotationBy90s'],
+    2: ['regionByPx', 'regionByPct', 'rotationBy90s', 'sizeByConfinedWh', 'sizeByDistortedWh', 'sizeByH', 'sizeByPct', 'sizeByW'],
+  },
 };
 const LEVEL_FORMATS: Record<ComplianceLevel, string[]> = { 0: ['jpg'], 1: ['jpg'], 2: ['jpg', 'png'] };
 const LEVEL_QUALITIES: Record<ImageApiVersion, Record<ComplianceLevel, string[]>> = {
   3: { 0: ['default'], 1: ['default'], 2: ['default', 'color', 'gray'] },
   2: { 0: ['default'], 1: ['default'], 2: ['default', 'color', 'gray', 'bitonal'] },
+  // Image API 1.1 §4.4 and compliance: `native` at every level; color, grey and bitonal at level 2.
+  1: { 0: ['native'], 1: ['native'], 2: ['native', 'color', 'grey', 'bitonal'] },
 };
 
-function contextIncludes(view: JsonView, uri: string): boolean {
-  return view.at('@context').list().some((c) => c.isString() && (c.value as string) === uri);
+/** Context URIs as written, white space trimmed (some manifests carry leading spaces). */
+function contexts(view: JsonView): string[] {
+  return view.at('@context').list().filter((c) => c.isString()).map((c) => (c.value as string).trim());
 }
 
-/** Reads `level0|1|2` from a v3 profile string or a v2 `…/image/2/levelN.json` URI. */
+function contextIncludes(view: JsonView, uri: string): boolean {
+  return contexts(view).includes(uri);
+}
+
+/**
+ * Reads the compliance level from a profile URI of any version: `level0|1|2` (3.0),
+ * `…/image/2/levelN.json` (2.x), `…/image-api/1.1/compliance.html#levelN` (1.1),
+ * `…/image-api/compliance.html#levelN` (1.0), and the variants published data carries
+ * (`conformance.html`, `…/profiles/levelN.json`, `…/image/2/levelN` without `.json`).
+ */
 export function levelFromProfile(profile: string): ComplianceLevel | undefined {
   const m = /level([012])(?:\.json)?$/.exec(profile.trim());
   return m ? (Number(m[1]) as ComplianceLevel) : undefined;
+}
+
+/** The version a profile URI implies, or undefined (a bare `levelN` is 3.0). */
+export function versionFromProfile(profile: string): ImageApiVersion | undefined {
+  const s = profile.trim();
+  if (/iiif\.io\/api\/image\/2\/(profiles\/)?level[012](\.json)?$/.test(s)) return 2;
+  if (/iiif\.io\/api\/image\/1\/(profiles\/)?level[012](\.json)?$/.test(s)) return 1;
+  if (/library\.stanford\.edu\/iiif\/image-api\/(1\.[01]\/)?(compliance|conformance)\.html#level[012]$/.test(s)) return 1;
+  if (/^level[012]$/.test(s)) return 3;
+  return undefined;
 }
 
 /**
@@ -99,14 +131,14 @@ export function detectVersion(view: JsonView): ImageApiVersion | 1 | undefined {
   if (types.includes('ImageService1')) return 1;
   if (contextIncludes(view, V3_CONTEXT)) return 3;
   if (contextIncludes(view, V2_CONTEXT)) return 2;
-  if (view.at('@context').list().some((c) => c.isString() && /iiif\.io\/api\/image\/1\//.test(c.value as string))) return 1;
+  if (contexts(view).some((c) => V1_CONTEXTS.includes(c))) return 1;
   for (const p of view.at('profile').list()) {
     if (!p.isString()) continue;
-    const s = p.value as string;
-    if (/iiif\.io\/api\/image\/2\/level[012]\.json$/.test(s)) return 2;
-    if (/iiif\.io\/api\/image\/1\/(compliance\.html#)?level[012]/.test(s)) return 1;
-    if (/^level[012]$/.test(s)) return 3;
+    const v = versionFromProfile(p.value as string);
+    if (v !== undefined) return v;
   }
+  // Image API 1.x info.json: `scale_factors`/`tile_width` (1.1 §5) or `identifier` without `@id` (1.0 §5).
+  if (view.has('scale_factors') || view.has('tile_width') || (view.has('identifier') && !view.has('@id'))) return 1;
   return undefined;
 }
 
@@ -124,7 +156,7 @@ export function readServiceRef(view: JsonView): ImageServiceRef | undefined {
   if (view.isString()) return undefined;
   if (!view.isObject()) return undefined;
   const version = detectVersion(view);
-  if (version !== 2 && version !== 3) return undefined;
+  if (version === undefined) return undefined;
   const id = view.requireId();
   let level: ComplianceLevel | undefined;
   for (const p of view.at('profile').list()) if (p.isString()) level ??= levelFromProfile(p.value as string);
@@ -162,6 +194,15 @@ function readTiles(view: JsonView): TileSpec[] {
   });
 }
 
+/** Image API 1.1 §5: one tile size (`tile_width`, `tile_height` defaulting to it) for every listed scale factor. */
+function readTiles1(view: JsonView): TileSpec[] {
+  if (!view.has('tile_width')) return [];
+  const width = view.at('tile_width').positiveInt();
+  const height = view.at('tile_height').exists() ? view.at('tile_height').positiveInt() : width;
+  const listed = view.at('scale_factors').exists() ? view.at('scale_factors').nonEmptyItems().map((s) => s.positiveInt()) : [1];
+  return [{ width, height, scaleFactors: [...new Set(listed)].sort((a, b) => a - b) }];
+}
+
 function readSizes(view: JsonView): { width: number; height: number }[] {
   if (!view.exists()) return [];
   return view
@@ -183,9 +224,10 @@ export function parseInfoJson(doc: unknown, fetchedFrom: string): ImageService {
   const view = JsonView.of(doc, fetchedFrom, 'E_INFO_INVALID');
   view.object();
   const version = detectVersion(view);
-  if (version === 1) throw view.error('Image API 1.x services are not supported (need 2.1 or 3.0)');
-  if (version === undefined) throw view.at('@context').error('cannot tell the Image API version (no ImageService2/3 type, image context or level profile)');
-  const id = view.requireId();
+  if (version === undefined) throw view.at('@context').error('cannot tell the Image API version (no ImageService type, image context, level profile or 1.x fields)');
+  // Image API 1.0 info.json has `identifier` and no `@id` (1.0 §5): the base is where the document was fetched.
+  const fetchedBase = /\/info\.json$/.test(fetchedFrom) ? fetchedFrom.replace(/\/info\.json$/, '') : undefined;
+  const id = version === 1 && !view.has('@id') && fetchedBase ? fetchedBase : view.requireId();
   const width = view.at('width').positiveInt();
   const height = view.at('height').positiveInt();
   if (width > MAX_SIDE || height > MAX_SIDE || width * height > MAX_AREA) {
@@ -202,7 +244,14 @@ export function parseInfoJson(doc: unknown, fetchedFrom: string): ImageService {
   let rights: string | undefined;
   let attribution: string | undefined;
 
-  if (version === 3) {
+  if (version === 1) {
+    // Image API 1.1 §5: top-level scale_factors and tile_width/tile_height, formats and qualities; an optional profile
+    // string. Without a stated level a client assumes level 0 (Image API 1.1 §8).
+    for (const p of view.at('profile').list()) if (p.isString()) level ??= levelFromProfile(p.value as string);
+    level ??= 0;
+    extraFormats.push(...strings(view.at('formats')));
+    extraQualities.push(...strings(view.at('qualities')));
+  } else if (version === 3) {
     const profile = view.at('profile');
     level = levelFromProfile(profile.string());
     if (level === undefined) profile.fail('"level0", "level1" or "level2"');
@@ -245,7 +294,7 @@ export function parseInfoJson(doc: unknown, fetchedFrom: string): ImageService {
   if (maxWidth !== undefined && maxHeight === undefined) maxHeight = maxWidth;
 
   const lvl = level as ComplianceLevel;
-  const base = /\/info\.json$/.test(fetchedFrom) ? fetchedFrom.replace(/\/info\.json$/, '') : normaliseServiceId(id);
+  const base = fetchedBase ?? normaliseServiceId(id);
   const physical = readPhysicalScale(view.at('service'));
   return {
     id: normaliseServiceId(id),
@@ -258,7 +307,7 @@ export function parseInfoJson(doc: unknown, fetchedFrom: string): ImageService {
     ...(maxHeight !== undefined ? { maxHeight } : {}),
     ...(maxArea !== undefined ? { maxArea } : {}),
     sizes: readSizes(view.at('sizes')),
-    tiles: readTiles(view.at('tiles')),
+    tiles: version === 1 ? readTiles1(view) : readTiles(view.at('tiles')),
     formats: uniqueSorted([...LEVEL_FORMATS[lvl], ...extraFormats]),
     qualities: uniqueSorted([...LEVEL_QUALITIES[version][lvl], ...extraQualities]),
     features: uniqueSorted([...LEVEL_FEATURES[version][lvl], ...extraFeatures]),
@@ -276,9 +325,22 @@ export function supports(service: ImageService, feature: string): boolean {
   return service.features.includes(feature);
 }
 
-/** May the server scale a region above its native size? (3.0 `sizeUpscaling` with `^`; 2.1 `sizeAboveFull`.) */
+/** May the server scale a region above its native size? (3.0 `sizeUpscaling` with `^`; 2.1 `sizeAboveFull`; 1.1 says upscaling MAY be supported, so never assumed.) */
 export function canUpscale(service: ImageService): boolean {
+  if (service.version === 1) return false;
   return service.version === 3 ? supports(service, 'sizeUpscaling') : supports(service, 'sizeAboveFull');
+}
+
+/**
+ * The quality name to send: the recipe speaks 2.x/3.0 names, which 1.x spells
+ * differently (`default` was `native`, `gray` was `grey`: Image API 2.0 change log "Renamed Qualities").
+ * Falls back to the service's default quality when the wanted one is not offered.
+ */
+export function qualityFor(service: ImageService, wanted: string): { quality: string; note?: string } {
+  const spelled = service.version === 1 ? (wanted === 'default' ? 'native' : wanted === 'gray' ? 'grey' : wanted) : wanted;
+  if (service.qualities.includes(spelled)) return { quality: spelled };
+  const fallback = service.version === 1 ? 'native' : 'default';
+  return { quality: fallback, note: `quality ${wanted} not offered by the service; asked for ${fallback}` };
 }
 
 /** May the client ask for an exact, possibly aspect-changing `w,h`? */

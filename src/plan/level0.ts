@@ -39,9 +39,10 @@ export interface TileRef {
  * (Image API 3.0 implementation notes §3): xr = n·tw·s, wr = min(tw·s, W − xr),
  * ws = ceil(wr / s). A tile covering the whole image is written `full`, the
  * canonical form (§4.8), with the `x,y,w,h` spelling kept as a fallback because
- * some static pyramids store only that one; size is `w,h` for 3.0 and `w,` for 2.1.
+ * some static pyramids store only that one; size is `w,h` for 3.0 and `w,` for 1.1 and 2.x
+ * (Image API 2.1 Appendix A; 1.1 has no tile algorithm of its own, the same arithmetic applies).
  */
-export function tilesCovering(service: ImageService, tile: TileSpec, sf: number, region: Rect, format = 'jpg'): TileRef[] {
+export function tilesCovering(service: ImageService, tile: TileSpec, sf: number, region: Rect, format = 'jpg', quality = service.version === 1 ? 'native' : 'default'): TileRef[] {
   const spanW = tile.width * sf, spanH = tile.height * sf;
   const c0 = Math.floor(region.x / spanW), r0 = Math.floor(region.y / spanH);
   const c1 = Math.ceil((region.x + region.w) / spanW) - 1, r1 = Math.ceil((region.y + region.h) / spanH) - 1;
@@ -54,9 +55,9 @@ export function tilesCovering(service: ImageService, tile: TileSpec, sf: number,
       const ws = Math.ceil(wr / sf), hs = Math.ceil(hr / sf);
       const size = service.version === 3 ? { kind: 'wh' as const, width: ws, height: hs } : { kind: 'w' as const, width: ws };
       const region = { x: xr, y: yr, w: wr, h: hr };
-      const spelled = imageRequestUrl(service.base, service.version, { region, size, quality: 'default', format });
+      const spelled = imageRequestUrl(service.base, service.version, { region, size, quality, format });
       const whole = xr === 0 && yr === 0 && wr === service.width && hr === service.height;
-      const url = whole ? imageRequestUrl(service.base, service.version, { region: 'full', size, quality: 'default', format }) : spelled;
+      const url = whole ? imageRequestUrl(service.base, service.version, { region: 'full', size, quality, format }) : spelled;
       out.push({ col, row, region, width: ws, height: hs, url, ...(whole ? { fallbackUrl: spelled } : {}) });
     }
   }

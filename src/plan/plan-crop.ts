@@ -6,6 +6,7 @@ import {
   canRequestExactSize,
   canRequestRegion,
   canUpscale,
+  qualityFor,
 } from '../iiif/image-service.ts';
 import { imageRequestUrl, SizeParam } from '../iiif/image-url.ts';
 import { stableId } from '../util/hash.ts';
@@ -22,6 +23,8 @@ export interface CropPlanInput {
   /** The wanted area, in canvas units. */
   canvasRect: Rect;
   format: 'jpg' | 'png';
+  /** The recipe's quality in 2.x/3.0 spelling (default `default`); 1.x services get their own names. */
+  quality?: string;
 }
 
 /** Why a crop could not be planned (the region is then skipped with this reason). */
@@ -62,7 +65,9 @@ export function planCrop(input: CropPlanInput): CropRequest {
     notes.push(`format ${format} not offered by the service; asked for jpg`);
     format = 'jpg';
   }
-  const quality = 'default';
+  const q = qualityFor(service, input.quality ?? 'default');
+  const quality = q.quality;
+  if (q.note) notes.push(q.note);
   const bounds = intersect(placement.source, { x: 0, y: 0, w: service.width, h: service.height });
   const imageInt = (outBox: Rect): Rect => {
     const f = canvasToImage(placement, toCanvas(outBox));
@@ -74,7 +79,7 @@ export function planCrop(input: CropPlanInput): CropRequest {
   let stitch: StitchRecipe | undefined;
   if (canRequestRegion(service) && canRequestExactSize(service)) stitch = serverScaled(service, box, imageInt, format, quality, notes);
   if (!stitch && canRequestRegion(service)) stitch = nativeThenResample(service, box, imageInt(box), format, quality, notes);
-  if (!stitch) stitch = fromLevel0(service, box, imageInt(box), Math.max(kx, ky), format, notes);
+  if (!stitch) stitch = fromLevel0(service, box, imageInt(box), Math.max(kx, ky), format, quality, notes);
 
   return {
     // The placement is part of the key: one image painted on two canvases gives different crops for one output box.
@@ -135,11 +140,11 @@ function nativeThenResample(service: ImageService, box: Rect, region: Rect, form
   };
 }
 
-function fromLevel0(service: ImageService, box: Rect, region: Rect, k: number, format: string, notes: string[]): StitchRecipe {
+function fromLevel0(service: ImageService, box: Rect, region: Rect, k: number, format: string, quality: string, notes: string[]): StitchRecipe {
   const choice = chooseScaleFactor(service.tiles, k);
   if (choice) {
     const { tile, sf } = choice;
-    const tiles = tilesCovering(service, tile, sf, region, format);
+    const tiles = tilesCovering(service, tile, sf, region, format, quality);
     const ox = Math.min(...tiles.map((t) => t.region.x / sf));
     const oy = Math.min(...tiles.map((t) => t.region.y / sf));
     const pieces: Piece[] = tiles.map((t) => ({
@@ -172,7 +177,7 @@ function fromLevel0(service: ImageService, box: Rect, region: Rect, k: number, f
     notes.push('level 0: full image at full size');
   }
   const fx = size.width / service.width, fy = size.height / service.height;
-  const url = imageRequestUrl(service.base, service.version, { region: 'full', size: sizeParam, quality: 'default', format });
+  const url = imageRequestUrl(service.base, service.version, { region: 'full', size: sizeParam, quality, format });
   const pieces: Piece[] = [{ url, left: 0, top: 0, width: size.width, height: size.height, expectWidth: size.width, expectHeight: size.height, tolerance: 1 }];
   const ex0 = Math.floor(region.x * fx), ey0 = Math.floor(region.y * fy);
   const ex1 = Math.min(size.width, Math.ceil((region.x + region.w) * fx)), ey1 = Math.min(size.height, Math.ceil((region.y + region.h) * fy));

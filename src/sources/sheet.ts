@@ -59,6 +59,7 @@ export function parseSheet(text: string, source: string): { annotations: RegionA
       source,
       pointer: `/${line}`,
       labels: [label],
+      tags: [{ value: label, purpose: 'tagging' }],
       motivations: ['tagging'],
       targets: [{ canvasId: canvas, selector, pointer: `/${line}` }],
       ...(group ? { group } : {}),

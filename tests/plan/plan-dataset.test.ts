@@ -15,7 +15,7 @@ function sources(annotations: RegionAnnotation[]): ResolvedSources {
   return { manifests: [{ manifest, collections: [] }], annotations, services: new Map([1, 2].map((n) => [`${B}/iiif/${n}`, parseInfoJson(svc(n), `${B}/iiif/${n}/info.json`)])), documents: [], failures: [] };
 }
 const rect = (n: number, x: number, y: number, w: number, h: number) => ({ canvasId: `${B}/canvas/${n}`, selector: { kind: 'xywh' as const, fragment: { unit: 'pixel' as const, x, y, w, h } }, pointer: '' });
-const anno = (id: string, label: string, targets: RegionAnnotation['targets'], group?: string): RegionAnnotation => ({ id: `${B}/anno/${id}`, source: 's', pointer: '', labels: [label], motivations: ['tagging'], targets, ...(group ? { group } : {}) });
+const anno = (id: string, label: string, targets: RegionAnnotation['targets'], group?: string): RegionAnnotation => ({ id: `${B}/anno/${id}`, source: 's', pointer: '', labels: [label], tags: [{ value: label }], motivations: ['tagging'], targets, ...(group ? { group } : {}) });
 const recipe = (groupBy: 'canvas' | 'annotation' | 'manifest', extra: Record<string, unknown> = {}) =>
   normaliseRecipe({ name: 'p', seed: 'p', sources: [{ manifest: 'm' }], labels: { oak: [], marble: [] }, scale: { pixelsPerCanvasUnit: 0.5 }, patch: { size: 32 }, negatives: { ratio: 1, margin: 6 }, split: { groupBy }, ...extra }, '/r/recipe.json', '/r');
 
