@@ -13,6 +13,7 @@ export type ErrorCode =
   | 'E_JSON_SYNTAX'
   | 'E_USAGE'
   | 'E_FETCH_FAILED'
+  | 'E_REFUSED'
   | 'E_FROZEN'
   | 'E_OFFLINE'
   | 'E_IMAGE_DECODE'
@@ -92,4 +93,37 @@ export function describeValue(value: unknown): string {
     return JSON.stringify(s);
   }
   return String(value);
+}
+
+/** One thing that could not be served, as written to failures.jsonl. */
+export interface FailureRecord {
+  /**
+   * `source`: a whole document; `item`: one annotation, canvas or member inside a
+   * document from someone else's server (the rest of it was used); `info`: an image
+   * service description; `crop`, `region`, `patch`: what the dataset is cut from.
+   */
+  stage: 'source' | 'item' | 'info' | 'crop' | 'region' | 'patch';
+  /** Crop key, region key, or the source/URL. */
+  key: string;
+  url?: string;
+  /** JSON Pointer (RFC 6901) of the offending value inside the document at `url`. */
+  pointer?: string;
+  status?: number;
+  attempts?: number;
+  reason: string;
+}
+
+/**
+ * The one conversion from an error to a failure record: a FetchError keeps its
+ * URL, status and attempts; an InputError from a remote document keeps its URL
+ * and JSON Pointer. Anything else is not a recordable failure and is rethrown.
+ */
+export function failureFrom(stage: FailureRecord['stage'], key: string, err: unknown): FailureRecord {
+  if (err instanceof FetchError) {
+    return { stage, key, url: err.url, ...(err.status !== undefined ? { status: err.status } : {}), attempts: err.attempts, reason: err.reason };
+  }
+  if (err instanceof InputError) {
+    return { stage, key, url: err.source, pointer: err.pointer === '' ? '/' : err.pointer, reason: err.detail };
+  }
+  throw err;
 }

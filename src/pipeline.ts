@@ -23,6 +23,8 @@ export interface RunOptions {
   recordedOutput?: string;
   /** Write `<name>.lock.json` beside the recipe (default true; verify does not). */
   writeLock?: boolean;
+  /** Problems in documents from other servers are fatal (exit 2) instead of failure records. */
+  strict?: boolean;
   /** Injected clock for tests. */
   sleep?: (ms: number) => Promise<void>;
 }
@@ -57,6 +59,7 @@ export async function openFetcher(recipe: Recipe, opts: RunOptions): Promise<Fet
     retry: { ...DEFAULT_RETRY_POLICY, retries: n.retries, seed: recipe.seed },
     ...(n.contact ? { contact: n.contact } : {}),
     ...(n.allowHosts ? { allowHosts: n.allowHosts } : {}),
+    guardNonPublic: true,
     ...(opts.onEvent ? { onEvent: opts.onEvent } : {}),
     ...(opts.warn ? { warn: opts.warn } : {}),
     ...(opts.sleep ? { sleep: opts.sleep } : {}),
@@ -72,7 +75,7 @@ export interface Planned {
 /** Resolves sources (fetching manifests, annotations and info.json) and plans crops and patches. */
 export async function planRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned> {
   const fetcher = await openFetcher(recipe, opts);
-  const sources = await resolveSources(recipe.sources, fetcher);
+  const sources = await resolveSources(recipe.sources, fetcher, { strict: !!opts.strict });
   return { sources, plan: planDataset(recipe, sources), fetcher };
 }
 

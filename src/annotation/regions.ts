@@ -23,7 +23,7 @@ export interface Region {
   group?: string;
 }
 
-export type SkipReason = 'no-matching-label' | 'ambiguous-label' | 'unknown-canvas' | 'point-selector' | 'outside-canvas';
+export type SkipReason = 'no-matching-label' | 'ambiguous-label' | 'unreadable-body' | 'unknown-canvas' | 'point-selector' | 'outside-canvas';
 
 export interface SkippedRegion {
   annotationId: string;
@@ -34,6 +34,53 @@ export interface SkippedRegion {
 export interface CanvasContext {
   manifest: Manifest;
   canvas: Canvas;
+}
+
+/** The key of a canvas within its manifest: canvas ids are not unique across manifests in published data. */
+export function canvasKey(manifestId: string, canvasId: string): string {
+  return `${manifestId}\n${canvasId}`;
+}
+
+/**
+ * Finds canvases by id. An annotation bound to a manifest (reached through it, or
+ * naming it with `within`) is looked up in that manifest only; an unbound one
+ * takes the first manifest, by id, that has the canvas.
+ */
+export class CanvasLookup<C extends CanvasContext = CanvasContext> {
+  private readonly byKey = new Map<string, C>();
+  private readonly firstById = new Map<string, C>();
+  private readonly counts = new Map<string, number>();
+  constructor(contexts: Iterable<C>) {
+    const all = [...contexts].sort((a, b) => byString(a.manifest.id, b.manifest.id));
+    for (const c of all) {
+      const key = canvasKey(c.manifest.id, c.canvas.id);
+      if (!this.byKey.has(key)) {
+        this.byKey.set(key, c);
+        this.counts.set(c.canvas.id, (this.counts.get(c.canvas.id) ?? 0) + 1);
+      }
+      if (!this.firstById.has(c.canvas.id)) this.firstById.set(c.canvas.id, c);
+    }
+  }
+  get(canvasId: string, manifestId?: string): C | undefined {
+    if (manifestId !== undefined) {
+      const scoped = this.byKey.get(canvasKey(manifestId, canvasId));
+      if (scoped) return scoped;
+    }
+    return this.firstById.get(canvasId);
+  }
+  /** Does more than one manifest have a canvas with this id? */
+  isShared(canvasId: string): boolean {
+    return (this.counts.get(canvasId) ?? 0) > 1;
+  }
+  byCanvasKey(key: string): C | undefined {
+    return this.byKey.get(key);
+  }
+  /** Bound annotations look in their manifest only; `within` on a target binds it when the manifest is known. */
+  find(canvasId: string, boundTo: string | undefined, within: string | undefined): C | undefined {
+    if (boundTo !== undefined) return this.byKey.get(canvasKey(boundTo, canvasId));
+    if (within !== undefined && this.byKey.has(canvasKey(within, canvasId))) return this.byKey.get(canvasKey(within, canvasId));
+    return this.firstById.get(canvasId);
+  }
 }
 
 /** Normalises a label for matching: trimmed, lower case, inner white space collapsed. */
@@ -59,12 +106,13 @@ export function labelIndex(labels: Record<string, readonly string[]>): Map<strin
 }
 
 /** Which class an annotation's labels map to, or why none. */
-export function classify(labels: readonly string[], index: Map<string, string>): { label: string; raw: string } | { skip: 'no-matching-label' | 'ambiguous-label'; detail: string } {
+export function classify(labels: readonly string[], index: Map<string, string>, unreadable: readonly string[] = []): { label: string; raw: string } | { skip: 'no-matching-label' | 'ambiguous-label' | 'unreadable-body'; detail: string } {
   const hits = new Map<string, string>();
   for (const raw of labels) {
     const cls = index.get(normaliseLabel(raw));
     if (cls !== undefined && !hits.has(cls)) hits.set(cls, raw);
   }
+  if (hits.size === 0 && unreadable.length > 0) return { skip: 'unreadable-body', detail: `no class among the readable bodies, and ${unreadable.length} body(ies) could not be read: ${unreadable.join('; ')}` };
   if (hits.size === 0) return { skip: 'no-matching-label', detail: labels.length ? `bodies ${JSON.stringify(labels)} match no class` : 'no body' };
   if (hits.size > 1) return { skip: 'ambiguous-label', detail: `bodies map to several classes: ${[...hits.keys()].sort(byString).join(', ')}` };
   const [[label, raw]] = [...hits.entries()];
@@ -78,34 +126,38 @@ export function classify(labels: readonly string[], index: Map<string, string>):
  */
 export function extractRegions(
   annotations: readonly RegionAnnotation[],
-  canvases: ReadonlyMap<string, CanvasContext>,
+  canvases: CanvasLookup,
   index: Map<string, string>,
 ): { regions: Region[]; skipped: SkippedRegion[]; obstacles: Map<string, Rect[]> } {
   const regions: Region[] = [];
   const skipped: SkippedRegion[] = [];
+  /** Areas negatives must keep clear of, by canvas key. */
   const obstacles = new Map<string, Rect[]>();
   for (const a of annotations) {
-    // Every annotated area is an obstacle for negatives, whatever its label.
+    const cls = classify(a.labels, index, a.unreadableBodies);
+    // Every annotated area is an obstacle for negatives, whatever its label; a whole-canvas target only
+    // when it names a class (a comment on the whole board says nothing about where the material is).
     for (const t of a.targets) {
-      const ctx = canvases.get(t.canvasId);
-      if (!ctx || t.selector.kind === 'whole') continue;
+      const ctx = canvases.find(t.canvasId, a.manifestId, t.within);
+      if (!ctx || (t.selector.kind === 'whole' && 'skip' in cls)) continue;
       const c = ctx.canvas;
-      const r = t.selector.kind === 'point' ? { x: t.selector.x, y: t.selector.y, w: 0, h: 0 }
+      const r = t.selector.kind === 'whole' ? { x: 0, y: 0, w: c.width, h: c.height }
+        : t.selector.kind === 'point' ? { x: t.selector.x, y: t.selector.y, w: 0, h: 0 }
         : t.selector.kind === 'xywh' ? fragmentToRect(t.selector.fragment, c.width, c.height)
         : shapeBounds({ kind: 'polygon', rings: t.selector.rings });
-      const list = obstacles.get(c.id) ?? [];
+      const key = canvasKey(ctx.manifest.id, c.id);
+      const list = obstacles.get(key) ?? [];
       list.push(r);
-      obstacles.set(c.id, list);
+      obstacles.set(key, list);
     }
-    const cls = classify(a.labels, index);
     if ('skip' in cls) {
       skipped.push({ annotationId: a.id, reason: cls.skip, detail: cls.detail });
       continue;
     }
     a.targets.forEach((t, i) => {
-      const ctx = canvases.get(t.canvasId);
+      const ctx = canvases.find(t.canvasId, a.manifestId, t.within);
       if (!ctx) {
-        skipped.push({ annotationId: a.id, reason: 'unknown-canvas', detail: `target ${t.canvasId} is on no canvas of the sources` });
+        skipped.push({ annotationId: a.id, reason: 'unknown-canvas', detail: a.manifestId ? `target ${t.canvasId} is on no canvas of ${a.manifestId}, the manifest it was reached through` : `target ${t.canvasId} is on no canvas of the sources` });
         return;
       }
       const { canvas } = ctx;

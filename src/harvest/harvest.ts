@@ -1,19 +1,11 @@
-import { FetchError } from '../errors.ts';
+import { FailureRecord, FetchError, failureFrom } from '../errors.ts';
+
+export type { FailureRecord } from '../errors.ts';
 import type { Fetcher, Fetched } from '../net/fetcher.ts';
 import type { CropRequest, Piece } from '../plan/crop-request.ts';
 import { byString } from '../util/hash.ts';
 import { imageSize } from './pixels.ts';
 
-/** One thing that could not be served, as written to failures.jsonl. */
-export interface FailureRecord {
-  stage: 'source' | 'info' | 'crop' | 'region' | 'patch';
-  /** Crop key, region key, or the source/URL. */
-  key: string;
-  url?: string;
-  status?: number;
-  attempts?: number;
-  reason: string;
-}
 
 export interface PieceOutcome {
   url: string;
@@ -71,7 +63,7 @@ export async function harvestCrops(
         outcome.set(url, { ok: { url: got.facts.url, sha256: got.facts.sha256, fromCache: got.fromCache, width: size.width, height: size.height } });
       } catch (err) {
         const fe = err instanceof FetchError ? err : new FetchError(url, (err as Error).message, { attempts: 0 });
-        outcome.set(url, { error: { stage: 'crop', key: '', url: fe.url, ...(fe.status !== undefined ? { status: fe.status } : {}), attempts: fe.attempts, reason: fe.reason } });
+        outcome.set(url, { error: failureFrom('crop', '', fe) });
       } finally {
         opts.onProgress?.(++done, urls.length);
       }

@@ -1,5 +1,7 @@
 import got from 'got';
+import dns from 'node:dns';
 import type { IncomingHttpHeaders } from 'node:http';
+import { isNonPublicHost } from './address-policy.ts';
 import { FetchError, redactUrl } from '../errors.ts';
 import { ContentCache, ResponseFacts } from './cache.ts';
 import { checkContent } from './content-check.ts';
@@ -33,6 +35,14 @@ export interface FetcherOptions {
   maxRedirects: number;
   /** Host names (or `*.suffix`) that may be contacted, also after redirects; undefined allows all. */
   allowHosts?: string[];
+  /**
+   * Refuse loopback, private and link-local addresses (by name or once resolved, redirects
+   * included) unless the host is in `trustedHosts` or `allowHosts`: a document from a public
+   * server must not make swatchbook reach into the harvesting machine's own network.
+   */
+  guardNonPublic?: boolean;
+  /** Host names the user named (the recipe's sources): exempt from `guardNonPublic`. */
+  trustedHosts?: string[];
   now: () => number;
   sleep: (ms: number) => Promise<void>;
   warn: (message: string) => void;
@@ -104,6 +114,12 @@ export class Fetcher {
       ...options,
     } as FetcherOptions;
     this.gate = new HostGate({ perHost: this.options.perHost, ratePerSecond: this.options.perHostRate, now: this.options.now, sleep: this.options.sleep });
+  }
+
+  /** Adds a host the user named (in the recipe, a local file or a sheet) to the trusted hosts. */
+  trustHost(hostname: string): void {
+    const list = (this.options.trustedHosts ??= []);
+    if (!list.includes(hostname.toLowerCase())) list.push(hostname.toLowerCase());
   }
 
   userAgent(): string {
@@ -185,9 +201,31 @@ export class Fetcher {
     }
     const allow = this.options.allowHosts;
     if (allow && !allow.some((h) => hostMatches(parsed.hostname, h))) {
-      throw new FetchError(original, `host ${parsed.hostname} is not in network.allowHosts`, { attempts: 0 });
+      throw new FetchError(original, `host ${parsed.hostname} is not in network.allowHosts`, { attempts: 0, code: 'E_REFUSED' });
+    }
+    if (this.options.guardNonPublic && !this.isTrusted(parsed.hostname) && isNonPublicHost(parsed.hostname)) {
+      throw new FetchError(original, refusedText(parsed.hostname, url !== original ? ' (after a redirect)' : ''), { attempts: 0, code: 'E_REFUSED' });
     }
     return parsed;
+  }
+
+  private isTrusted(hostname: string): boolean {
+    const h = hostname.toLowerCase().replace(/^\[|\]$/g, '');
+    return (this.options.trustedHosts ?? []).some((t) => t.toLowerCase().replace(/^\[|\]$/g, '') === h) || (this.options.allowHosts ?? []).some((p) => hostMatches(h, p));
+  }
+
+  /** A DNS lookup that refuses non-public answers for hosts nobody trusted (a public name pointing at 127.0.0.1). */
+  private guardedLookup(hostname: string): typeof dns.lookup | undefined {
+    if (!this.options.guardNonPublic || this.isTrusted(hostname)) return undefined;
+    return ((host: string, options: dns.LookupOptions, callback: (err: NodeJS.ErrnoException | null, address: string | dns.LookupAddress[], family?: number) => void) => {
+      dns.lookup(host, { ...options, all: true }, (err, addresses) => {
+        if (err) return callback(err, '', 0);
+        const bad = addresses.find((a) => isNonPublicHost(a.address));
+        if (bad) return callback(Object.assign(new Error(refusedText(`${host} (${bad.address})`, '')), { code: 'ERR_NON_PUBLIC_ADDRESS' }), '', 0);
+        if (options.all) return callback(null, addresses);
+        callback(null, addresses[0].address, addresses[0].family);
+      });
+    }) as unknown as typeof dns.lookup;
   }
 
   private async fetchWithRetries(url: string, kind: FetchKind): Promise<Fetched> {
@@ -263,7 +301,9 @@ export class Fetcher {
     this.stats.requests++;
     this.options.onEvent?.({ type: 'request', url: redactUrl(url), attempt });
     const cap = this.options.maxBytes[kind];
+    const lookup = this.guardedLookup(new URL(url).hostname);
     const stream = got.stream(url, {
+      ...(lookup ? { dnsLookup: lookup as never } : {}),
       followRedirect: false,
       throwHttpErrors: false,
       retry: { limit: 0 },
@@ -298,6 +338,7 @@ export class Fetcher {
       if (err instanceof AttemptFailure) throw err;
       const code = (err as { code?: string }).code;
       if (code === 'ERR_BODY_TOO_LARGE') throw new AttemptFailure((err as Error).message, { permanent: true });
+      if (code === 'ERR_NON_PUBLIC_ADDRESS') throw new FetchError(url, (err as Error).message, { attempts: attempt, code: 'E_REFUSED' });
       const declared = Number(header(headers, 'content-length'));
       if (status === 200 && Number.isFinite(declared) && size < declared) {
         throw new AttemptFailure(`truncated body: ${size} of ${declared} bytes`, { errorCode: 'ERR_TRUNCATED' });
@@ -319,6 +360,10 @@ export class Fetcher {
 function header(headers: IncomingHttpHeaders, name: string): string | undefined {
   const v = headers[name];
   return Array.isArray(v) ? v[0] : v;
+}
+
+function refusedText(host: string, after: string): string {
+  return `refused ${host}${after}: a loopback, private or link-local address the recipe does not name (add the host to network.allowHosts to allow it)`;
 }
 
 export function hostMatches(host: string, pattern: string): boolean {

@@ -4,7 +4,7 @@ import { integralOf, rasterise } from '../geometry/mask.ts';
 import { Placement, canvasToImage } from '../geometry/placement.ts';
 import type { ImageService } from '../iiif/image-service.ts';
 import { mergeProvenance, PaintedImage, Provenance } from '../iiif/presentation.ts';
-import { CanvasContext, extractRegions, labelIndex, Region, SkippedRegion } from '../annotation/regions.ts';
+import { CanvasContext, CanvasLookup, canvasKey, extractRegions, labelIndex, Region, SkippedRegion } from '../annotation/regions.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ManifestEntry, ResolvedSources } from '../sources/resolve.ts';
 import { byString, seededUnit, stableId } from '../util/hash.ts';
@@ -47,6 +47,8 @@ export interface CropContext {
 export type PlanSkipReason =
   | SkippedRegion['reason']
   | 'not-painted'
+  | 'rotated-image'
+  | 'covered-by-another-image'
   | 'no-image-service'
   | 'no-physical-scale'
   | 'rights-excluded'
@@ -84,21 +86,41 @@ function rightsAllowed(rights: string | undefined, allow: string[] | undefined):
   return allow.some((a) => rights === a || rights.startsWith(a));
 }
 
-/** Picks the painted image that covers most of a region. */
-function imageFor(images: readonly PaintedImage[], bounds: Rect): PaintedImage | undefined {
-  let best: PaintedImage | undefined;
-  let bestArea = 0;
-  for (const img of images) {
-    const x0 = Math.max(bounds.x, img.target.x), y0 = Math.max(bounds.y, img.target.y);
-    const x1 = Math.min(bounds.x + bounds.w, img.target.x + img.target.w), y1 = Math.min(bounds.y + bounds.h, img.target.y + img.target.h);
-    const a = Math.max(0, x1 - x0) * Math.max(0, y1 - y0);
-    if (a > bestArea) {
-      best = img;
-      bestArea = a;
+const VISIBILITY_SAMPLES = 32;
+
+/**
+ * Picks the painted image that is visible over most of a region. Images are
+ * drawn in the order of the canvas's painting annotations, later ones over
+ * earlier ones (Presentation 3.0 §3.4 `items`: "in order"; §5.6 painting), so the
+ * image seen at a point is the last one whose target holds it. Visibility is
+ * counted on a 32×32 grid of sample points over the region; ties go to the later image.
+ */
+export function visibleImageFor(images: readonly PaintedImage[], bounds: Rect): PaintedImage | undefined {
+  if (images.length <= 1) return images.find((img) => intersects(img.target, bounds));
+  const votes = new Map<PaintedImage, number>();
+  for (let j = 0; j < VISIBILITY_SAMPLES; j++) {
+    const y = bounds.y + ((j + 0.5) / VISIBILITY_SAMPLES) * bounds.h;
+    for (let i = 0; i < VISIBILITY_SAMPLES; i++) {
+      const x = bounds.x + ((i + 0.5) / VISIBILITY_SAMPLES) * bounds.w;
+      let top: PaintedImage | undefined;
+      for (const img of images) {
+        const t = img.target;
+        if (x >= t.x && x < t.x + t.w && y >= t.y && y < t.y + t.h && (!top || img.order > top.order)) top = img;
+      }
+      if (top) votes.set(top, (votes.get(top) ?? 0) + 1);
     }
   }
+  let best: PaintedImage | undefined;
+  for (const [img, n] of votes) if (!best || n > votes.get(best)! || (n === votes.get(best)! && img.order > best.order)) best = img;
   return best;
 }
+
+/** The targets of images painted over `image` (later in the order) that overlap it: where it is not visible. */
+function occludersOf(images: readonly PaintedImage[], image: PaintedImage): Rect[] {
+  return images.filter((o) => o.order > image.order && intersects(o.target, image.target)).map((o) => o.target);
+}
+
+const overlapsAny = (r: Rect, rects: readonly Rect[]) => rects.some((o) => intersects(r, o));
 
 /**
  * Plans the whole dataset: regions from annotations, one crop per region, the
@@ -106,13 +128,10 @@ function imageFor(images: readonly PaintedImage[], bounds: Rect): PaintedImage |
  * the same canvases. Pure: the same inputs give the same plan, in sorted order.
  */
 export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPlan {
-  const canvases = new Map<string, CanvasContext & { entry: ManifestEntry }>();
   const rightsExcluded: DatasetPlan['rightsExcluded'] = [];
-  for (const entry of sources.manifests) {
-    for (const canvas of entry.manifest.canvases) {
-      if (!canvases.has(canvas.id)) canvases.set(canvas.id, { manifest: entry.manifest, canvas, entry });
-    }
-  }
+  const canvases = new CanvasLookup<CanvasContext & { entry: ManifestEntry }>(
+    sources.manifests.flatMap((entry) => entry.manifest.canvases.map((canvas) => ({ manifest: entry.manifest, canvas, entry }))),
+  );
   const { regions, skipped: regionSkips, obstacles } = extractRegions(sources.annotations, canvases, labelIndex(recipe.labels));
   const skipped: PlanSkip[] = regionSkips.map((s) => ({ key: s.annotationId, reason: s.reason, detail: s.detail }));
   const s = recipe.patch;
@@ -122,10 +141,14 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
   const positivesPerCanvas = new Map<string, number>();
   const excludedManifests = new Set<string>();
 
-  const prepare = (canvasId: string, bounds: Rect): Prepared => {
-    const c = canvases.get(canvasId)!;
-    const image = imageFor(c.canvas.images, bounds);
+  const prepare = (key: string, bounds: Rect): Prepared => {
+    const c = canvases.byCanvasKey(key)!;
+    const canvasId = c.canvas.id;
+    const image = visibleImageFor(c.canvas.images, bounds);
     if (!image) return { skip: 'not-painted', detail: 'no image is painted where the region lies' };
+    if (image.rotation) {
+      return { skip: 'rotated-image', detail: `the image is painted rotated by ${image.rotation.mirrored ? '!' : ''}${image.rotation.degrees}° (ImageApiSelector rotation); swatchbook does not cut rotated paintings, so the region is skipped rather than cut wrong` };
+    }
     const ref = image.services[0];
     const service = ref ? sources.services.get(ref.id) : undefined;
     if (!service) return { skip: 'no-image-service', detail: ref ? `the image service ${ref.id} could not be read` : 'the painted image has no IIIF image service' };
@@ -144,6 +167,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
       ctx: { manifestId: c.manifest.id, canvasId, service, scale, provenance, collections: c.entry.collections, ...(image.choice ? { choice: image.choice } : {}) },
       placement,
       image,
+      occluders: occludersOf(c.canvas.images, image),
     };
   };
 
@@ -155,7 +179,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
   };
 
   for (const region of regions) {
-    const prep = prepare(region.canvasId, region.bounds);
+    const prep = prepare(canvasKey(region.manifestId, region.canvasId), region.bounds);
     if ('skip' in prep) {
       skipped.push({ key: region.key, reason: prep.skip, detail: prep.detail });
       continue;
@@ -164,7 +188,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
     const px = ctx.scale.pixelsPerCanvasUnit;
     let crop: CropRequest;
     try {
-      crop = planCrop({ service: ctx.service, placement, scale: px, canvasRect: region.bounds, format: recipe.request.format });
+      crop = planCrop({ service: ctx.service, placement, scale: px, canvasRect: region.bounds, format: recipe.request.format, quality: recipe.request.quality });
     } catch (err) {
       if (!(err instanceof PlanError)) throw err;
       skipped.push({ key: region.key, reason: 'unplannable', detail: err.message });
@@ -184,12 +208,18 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
     const mask = rasterise([region.shape], { originX: box.x / px, originY: box.y / px, scaleX: px, scaleY: px, width: box.w, height: box.h });
     const cover = integralOf(mask);
     let kept = 0;
+    let hidden = 0;
     for (const v of vs) {
       for (const u of us) {
         const inCrop = { x: u - box.x, y: v - box.y, w: s.size, h: s.size };
         const coverage = cover(inCrop);
         if (coverage < s.minCoverage) continue;
         const canvasRegion = { x: u / px, y: v / px, w: s.size / px, h: s.size / px };
+        // A patch partly under a later-painted image would show pixels nobody sees on the canvas.
+        if (overlapsAny(canvasRegion, prep.occluders)) {
+          hidden++;
+          continue;
+        }
         patches.push({
           id: stableId(['positive', region.key, px, u, v, s.size]),
           label: region.label,
@@ -210,12 +240,17 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
         kept++;
       }
     }
+    if (kept === 0 && hidden > 0) {
+      skipped.push({ key: region.key, reason: 'covered-by-another-image', detail: `every patch that meets the coverage lies partly under an image painted later on the canvas (${hidden} patch(es))` });
+      continue;
+    }
     if (kept === 0) {
       skipped.push({ key: region.key, reason: 'no-patch-meets-coverage', detail: `no ${s.size}-px patch is at least ${s.minCoverage * 100}% inside the region` });
       continue;
     }
     addCrop(crop, ctx);
-    positivesPerCanvas.set(region.canvasId, (positivesPerCanvas.get(region.canvasId) ?? 0) + kept);
+    const ck = canvasKey(region.manifestId, region.canvasId);
+    positivesPerCanvas.set(ck, (positivesPerCanvas.get(ck) ?? 0) + kept);
   }
 
   const negatives = planNegatives(recipe, regions, positivesPerCanvas, canvases, obstacles, prepare, addCrop, patches);
@@ -232,7 +267,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
   };
 }
 
-type Ready = { ctx: CropContext; placement: Placement; image: PaintedImage };
+type Ready = { ctx: CropContext; placement: Placement; image: PaintedImage; occluders: Rect[] };
 type Prepared = Ready | { skip: PlanSkipReason; detail: string };
 
 interface Candidate {
@@ -246,7 +281,7 @@ function planNegatives(
   recipe: Recipe,
   regions: Region[],
   positivesPerCanvas: Map<string, number>,
-  canvases: Map<string, CanvasContext & { entry: ManifestEntry }>,
+  canvases: CanvasLookup<CanvasContext & { entry: ManifestEntry }>,
   obstacles: Map<string, Rect[]>,
   prepare: (canvasId: string, bounds: Rect) => Prepared,
   addCrop: (crop: CropRequest, ctx: CropContext) => void,
@@ -270,19 +305,20 @@ function planNegatives(
   // Candidate positions per canvas: stride = size, inside the painted image, clear of every annotated area by the margin.
   // Candidates are computed per canvas when needed and not kept: memory stays flat in the number of canvases.
   const candidatesOf = (canvasId: string): { list: Candidate[]; prep: Ready | undefined } => {
-    const c = canvases.get(canvasId)!;
+    const c = canvases.byCanvasKey(canvasId)!;
     const whole = { x: 0, y: 0, w: c.canvas.width, h: c.canvas.height };
     const prep = prepare(canvasId, whole);
     if ('skip' in prep) return { list: [], prep: undefined };
     const px: number = prep.ctx.scale.pixelsPerCanvasUnit;
     const painted = innerOutputBox(prep.placement.target, px);
-    const obs = obstacles.get(canvasId) ?? [];
+    // Labelled areas, and images painted over this one (their pixels are not this image's), are kept clear.
+    const obs = [...(obstacles.get(canvasId) ?? []), ...prep.occluders];
     const list: Candidate[] = [];
     for (let v = Math.ceil(painted.y / size) * size; v + size <= painted.y + painted.h; v += size) {
       for (let u = Math.ceil(painted.x / size) * size; u + size <= painted.x + painted.w; u += size) {
         const grown = { x: (u - margin) / px, y: (v - margin) / px, w: (size + 2 * margin) / px, h: (size + 2 * margin) / px };
         if (obs.some((o) => intersects(grown, o) || (o.w === 0 && o.h === 0 && o.x >= grown.x && o.x <= grown.x + grown.w && o.y >= grown.y && o.y <= grown.y + grown.h))) continue;
-        list.push({ canvasId, u, v, rank: seededUnit(recipe.seed, 'negative', canvasId, u, v) });
+        list.push({ canvasId, u, v, rank: seededUnit(recipe.seed, 'negative', canvases.isShared(c.canvas.id) ? canvasId : c.canvas.id, u, v) });
       }
     }
     list.sort((a, b) => a.rank - b.rank || a.v - b.v || a.u - b.u);
@@ -290,14 +326,15 @@ function planNegatives(
   };
   const regionsByCanvas = new Map<string, Region[]>();
   for (const r of regions) {
-    const list = regionsByCanvas.get(r.canvasId);
+    const k = canvasKey(r.manifestId, r.canvasId);
+    const list = regionsByCanvas.get(k);
     if (list) list.push(r);
-    else regionsByCanvas.set(r.canvasId, [r]);
+    else regionsByCanvas.set(k, [r]);
   }
 
-  const groupOfCanvas = (canvasId: string) => {
-    const c = canvases.get(canvasId)!;
-    return recipe.split.groupBy === 'manifest' ? `manifest:${c.manifest.id}` : `canvas:${canvasId}`;
+  const groupOfCanvas = (key: string) => {
+    const c = canvases.byCanvasKey(key)!;
+    return recipe.split.groupBy === 'manifest' ? `manifest:${c.manifest.id}` : `canvas:${c.canvas.id}`;
   };
   const taken = new Map<string, number>();
   let borrowed = 0;
@@ -314,9 +351,9 @@ function planNegatives(
   const emit = (cand: Candidate, prep: Ready) => {
     const px: number = prep.ctx.scale.pixelsPerCanvasUnit;
     const canvasRegion = { x: cand.u / px, y: cand.v / px, w: size / px, h: size / px };
-    const crop = planCrop({ service: prep.ctx.service, placement: prep.placement, scale: px, canvasRect: canvasRegion, format: recipe.request.format });
+    const crop = planCrop({ service: prep.ctx.service, placement: prep.placement, scale: px, canvasRect: canvasRegion, format: recipe.request.format, quality: recipe.request.quality });
     addCrop(crop, prep.ctx);
-    const c = canvases.get(cand.canvasId)!;
+    const c = canvases.byCanvasKey(cand.canvasId)!;
     let group = groupOfCanvas(cand.canvasId);
     let annotationId: string | undefined;
     if (recipe.split.groupBy === 'annotation') {
@@ -337,12 +374,13 @@ function planNegatives(
       }
     }
     patches.push({
-      id: stableId(['negative', cand.canvasId, px, cand.u, cand.v, size]),
+      // Canvas ids alone are kept in the id so datasets stay stable; a canvas id shared by manifests adds the manifest.
+      id: stableId(['negative', canvases.isShared(c.canvas.id) ? cand.canvasId : c.canvas.id, px, cand.u, cand.v, size]),
       label,
       kind: 'negative',
       group,
       manifestId: c.manifest.id,
-      canvasId: cand.canvasId,
+      canvasId: c.canvas.id,
       ...(annotationId ? { annotationId } : {}),
       cropKey: crop.key,
       inCrop: { x: cand.u - crop.outputBox.x, y: cand.v - crop.outputBox.y, w: size, h: size },

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { parseAnnotationDocument } from '../../src/annotation/web-annotation.ts';
-import { extractRegions, labelIndex } from '../../src/annotation/regions.ts';
+import { CanvasLookup, extractRegions, labelIndex } from '../../src/annotation/regions.ts';
 import { parseManifest } from '../../src/iiif/presentation.ts';
 import { InputError } from '../../src/errors.ts';
 import { fixture, thrown } from '../helpers.ts';
@@ -34,7 +34,7 @@ describe('W3C Web Annotation reading', () => {
 
 describe('regions from annotations', () => {
   const manifest = parseManifest(fixture('manifests/board-halves.json'), 'm.json');
-  const canvases = new Map(manifest.canvases.map((canvas) => [canvas.id, { manifest, canvas }]));
+  const canvases = new CanvasLookup(manifest.canvases.map((canvas) => ({ manifest, canvas })));
   const index = labelIndex({
     graining: ['faux oak', 'wood graining'],
     marbling: ['https://vocab.example.org/material/marbling', 'faux marble'],
