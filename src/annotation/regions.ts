@@ -3,6 +3,7 @@ import { fragmentToRect } from '../geometry/media-fragment.ts';
 import { Shape, shapeBounds } from '../geometry/shape.ts';
 import type { Canvas, Manifest } from '../iiif/presentation.ts';
 import { byString } from '../util/hash.ts';
+import type { BodyTag } from './body-tags.ts';
 import type { RegionAnnotation } from './web-annotation.ts';
 
 /** A labelled area of one canvas, in canvas units: what the dataset is cut from. */
@@ -14,6 +15,8 @@ export interface Region {
   /** The body value that matched, and the class it maps to. */
   rawLabel: string;
   label: string;
+  /** Every body value of the annotation (attributes beside the label). */
+  tags: BodyTag[];
   manifestId: string;
   canvasId: string;
   shape: Shape;
@@ -187,6 +190,7 @@ export function extractRegions(
         ...(a.annotator ? { annotator: a.annotator } : {}),
         rawLabel: cls.raw,
         label: cls.label,
+        tags: a.tags,
         manifestId: ctx.manifest.id,
         canvasId: canvas.id,
         shape,

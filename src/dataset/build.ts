@@ -54,15 +54,18 @@ export function toolVersions() {
   return { name: 'swatchbook', version: VERSION, sharp: sharp.versions.sharp ?? 'unknown', libvips: sharp.versions.vips, node: process.versions.node.split('.')[0] };
 }
 
-/** The recipe as written into the card: defaults filled, local paths relative to the recipe's folder. */
+/**
+ * The recipe as written into the card: defaults filled, local paths relative to
+ * the recipe's folder, and no output folder: the dataset's bytes must not depend
+ * on where it is written.
+ */
 export function recipeForCard(recipe: Recipe): unknown {
   const base = dirname(recipe.file);
   const rel = (p: string) => (/^https?:\/\//i.test(p) ? redactUrl(p) : !isAbsolute(p) ? p : relative(base, p) || '.');
-  const { file: _file, ...rest } = recipe;
+  const { file: _file, output: _output, ...rest } = recipe;
   return {
     ...rest,
     sources: recipe.sources.map((s) => ({ [s.kind]: rel(s.location), ...('mmPerCanvasUnit' in s && s.mmPerCanvasUnit !== undefined ? { mmPerCanvasUnit: s.mmPerCanvasUnit } : {}) })),
-    output: rel(recipe.output),
   };
 }
 
@@ -191,6 +194,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
         annotation: p.annotationId ?? null,
         annotator: p.annotator ?? null,
         sourceLabel: p.rawLabel ?? null,
+        tags: (p.tags ?? []).map((t) => ({ value: t.value, purpose: t.purpose ?? null, language: t.language ?? null })),
         bodyChoice: ctx.choice ?? null,
         service: { id: redactUrl(ctx.service.id), version: ctx.service.version, level: ctx.service.level },
         requests: crop.stitch.pieces.map((x) => redactUrl(x.url)),
@@ -202,6 +206,8 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
         rights: ctx.provenance.rights ?? null,
         requiredStatement: ctx.provenance.requiredStatement ?? null,
         provider: ctx.provenance.provider,
+        logos: (ctx.provenance.logos ?? []).map(redactUrl),
+        partOf: (ctx.provenance.partOf ?? []).map(redactUrl),
       });
     }
     for (const dir of new Set(records.map((r) => dirname(tx.path(r.file))))) await mkdir(dir, { recursive: true });
@@ -213,13 +219,14 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
     const tool = toolVersions();
     const card = buildCard({
       recipe,
-      recipeShown: recipeForCard(opts.recordedOutput ? { ...recipe, output: opts.recordedOutput } : recipe),
+      recipeShown: recipeForCard(recipe),
       records,
       plan,
       failures,
       pairs,
       mergedGroups,
       assignment,
+      notes: sources.notes ?? [],
       sources: sources.documents.map((d) => ({ ...d, location: /^https?:/.test(d.location) ? redactUrl(d.location) : relative(dirname(recipe.file), d.location) })),
       tool,
       droppedPatches: dropped,

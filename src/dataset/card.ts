@@ -5,6 +5,7 @@ import type { NearDuplicatePair } from '../split/near-duplicates.ts';
 import { SPLITS, SplitAssignment, SplitName } from '../split/assign.ts';
 import { byString } from '../util/hash.ts';
 import type { IndexRecord } from './records.ts';
+import type { SourceNote } from '../sources/resolve.ts';
 
 export interface CardInputs {
   recipe: Recipe;
@@ -17,6 +18,7 @@ export interface CardInputs {
   mergedGroups: number;
   assignment: SplitAssignment;
   sources: { location: string; kind: string; sha256: string }[];
+  notes: readonly SourceNote[];
   tool: { name: string; version: string; sharp: string; libvips: string; node: string };
   droppedPatches: number;
   resampledPieces: number;
@@ -54,6 +56,16 @@ export function buildCard(i: CardInputs) {
     services.set(r.service.id, s);
   }
   const groups = new Set(i.records.map((r) => r.group));
+  // Attribute values per class: every body value beside the one that named the class, counted in patches.
+  const attributes: Record<string, Record<string, number>> = {};
+  for (const r of i.records) {
+    for (const t of r.tags) {
+      if (t.value === r.sourceLabel) continue;
+      const key = t.purpose ? `${t.value} (${t.purpose})` : t.value;
+      attributes[r.label] ??= {};
+      attributes[r.label][key] = (attributes[r.label][key] ?? 0) + 1;
+    }
+  }
   return {
     name: i.recipe.name,
     motivation: i.recipe.description,
@@ -74,8 +86,10 @@ export function buildCard(i: CardInputs) {
         moves: i.assignment.moves,
         unrepairable: i.assignment.unrepairable,
       },
+      attributes: sortKeys(Object.fromEntries(Object.entries(attributes).map(([k, v]) => [k, sortKeys(v)]))),
       rightsExcluded: i.plan.rightsExcluded,
-      failures: { count: i.failures.length, byStage: count(i.failures, (f) => f.stage), droppedPatches: i.droppedPatches },
+      sourceNotes: i.notes,
+      failures: { count: i.failures.length, byStage: count(i.failures, (f) => f.stage), droppedPatches: i.droppedPatches, examples: i.failures.slice(0, 50) },
     },
     collection: {
       tool: i.tool,
@@ -149,7 +163,22 @@ export function renderCardMarkdown(card: Card): string {
     lines.push('Excluded by the rights filter:', '');
     table(['manifest', 'rights'], c.rightsExcluded.map((r) => [r.manifestId, r.rights]));
   }
+  if (Object.keys(c.attributes).length) {
+    lines.push('Other body values (attributes) of the annotations, per class, counted in patches:', '');
+    table(['class', 'values'], Object.entries(c.attributes).map(([cls, v]) => [cls, Object.entries(v).map(([k, n]) => `${k.replace(/\|/g, '\\|')} ${n}`).join('; ')]));
+  }
+  if (c.sourceNotes.length) {
+    lines.push('Notes on the sources:', '');
+    for (const n of c.sourceNotes) {
+      if (n.kind === 'collection-cycle') lines.push(`- collection ${n.collection} lists ${n.member}, which contains it (${n.chain.join(' → ')}); followed once`);
+      else lines.push(`- canvas id ${n.canvasId} is used by ${n.manifests.length} manifests (${n.manifests.join(', ')}); annotations reached through a manifest are kept to its canvases`);
+    }
+    lines.push('');
+  }
   lines.push(`Failures: ${c.failures.count} (${Object.entries(c.failures.byStage).map(([k, n]) => `${k} ${n}`).join(', ') || 'none'}); patches dropped with them: ${c.failures.droppedPatches}. See failures.jsonl.`, '');
+  if (c.failures.examples.length) {
+    table(['stage', 'where', 'reason'], c.failures.examples.map((f) => [f.stage, `${f.url ?? f.key}${f.pointer ? ` at ${f.pointer}` : ''}`.replace(/\|/g, '\\|'), f.reason.replace(/\|/g, '\\|')]));
+  }
   const col = card.collection;
   lines.push('## Collection process', '');
   lines.push(`Made by ${col.tool.name} ${col.tool.version} (sharp ${col.tool.sharp}, libvips ${col.tool.libvips}, Node.js ${col.tool.node}) with seed \`${col.seed}\`.`, '');

@@ -19,6 +19,8 @@ export interface IndexRecord {
   annotation: string | null;
   annotator: string | null;
   sourceLabel: string | null;
+  /** Every body value of the annotation, with purpose and language where given (attributes to filter and stratify by). */
+  tags: { value: string; purpose: string | null; language: string | null }[];
   /** When the painting body was a Choice: the item taken (the first, Web Annotation §3.2.7) and how many there were. */
   bodyChoice: { chosen: string; of: number } | null;
   service: { id: string; version: number; level: number };
@@ -31,6 +33,8 @@ export interface IndexRecord {
   rights: string | null;
   requiredStatement: { label: string; value: string } | null;
   provider: string[];
+  logos: string[];
+  partOf: string[];
 }
 
 export function serialiseIndex(records: readonly IndexRecord[]): string {

@@ -5,6 +5,7 @@ import { Placement, canvasToImage } from '../geometry/placement.ts';
 import type { ImageService } from '../iiif/image-service.ts';
 import { mergeProvenance, PaintedImage, Provenance } from '../iiif/presentation.ts';
 import { CanvasContext, CanvasLookup, canvasKey, extractRegions, labelIndex, Region, SkippedRegion } from '../annotation/regions.ts';
+import type { BodyTag } from '../annotation/body-tags.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ManifestEntry, ResolvedSources } from '../sources/resolve.ts';
 import { byString, seededUnit, stableId } from '../util/hash.ts';
@@ -24,6 +25,7 @@ export interface PatchPlan {
   annotationId?: string;
   annotator?: string;
   rawLabel?: string;
+  tags?: BodyTag[];
   regionKey?: string;
   cropKey: string;
   /** Where the patch lies inside its crop's output image. */
@@ -230,6 +232,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
           annotationId: region.annotationId,
           ...(region.annotator ? { annotator: region.annotator } : {}),
           rawLabel: region.rawLabel,
+          tags: region.tags,
           regionKey: region.key,
           cropKey: crop.key,
           inCrop,
