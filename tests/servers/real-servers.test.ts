@@ -193,7 +193,7 @@ describe.skipIf(!iipAvailable())('Image API 2, level 1: iipsrv behind lighttpd',
   it('a larger request than MAX_CVT comes back silently smaller, and the harvester catches it', async () => {
     const srv = servers[servers.length - 1];
     const infoUrl = `${srv.base}/truth.tif/info.json`;
-    const fetcher = await openFetcher(normaliseRecipe({ name: 'x', sources: [{ manifest: 'm' }], labels: { a: [] }, scale: { pixelsPerCanvasUnit: 1 } }, join(work, 'x.json'), work), { cacheDir: join(work, 'cache-mismatch') });
+    const fetcher = await openFetcher(normaliseRecipe({ name: 'x', sources: [{ manifest: 'm' }], labels: { a: [] }, scale: { pixelsPerCanvasUnit: 1 }, network: { allowHosts: ['127.0.0.1'] } }, join(work, 'x.json'), work), { cacheDir: join(work, 'cache-mismatch') });
     const info = parseInfoJson(JSON.parse((await fetcher.get(infoUrl, 'json')).body.toString()), infoUrl);
     expect([info.maxWidth, info.maxHeight]).toEqual([256, 256]);
     const unaware = { ...info, maxWidth: undefined, maxHeight: undefined }; // as if the limit were not advertised
