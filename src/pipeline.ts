@@ -19,8 +19,6 @@ export interface RunOptions {
   onEvent?: (e: FetchEvent) => void;
   warn?: (message: string) => void;
   onProgress?: BuildOptions['onProgress'];
-  /** The output folder the card records (verify builds into a scratch folder). */
-  recordedOutput?: string;
   /** Write `<name>.lock.json` beside the recipe (default true; verify does not). */
   writeLock?: boolean;
   /** Problems in documents from other servers are fatal (exit 2) instead of failure records. */
@@ -93,7 +91,6 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
   const planned = await planRecipe(recipe, opts);
   const build = await buildDataset(recipe, planned.sources, planned.plan, planned.fetcher, {
     ...(opts.onProgress ? { onProgress: opts.onProgress } : {}),
-    ...(opts.recordedOutput ? { recordedOutput: opts.recordedOutput } : {}),
   });
   if ((opts.mode ?? 'online') !== 'frozen' && opts.writeLock !== false) await writeLock(lockPathFor(recipe), lockFrom(planned.fetcher.used.values()));
   await logRun(recipe, opts, 'build', build);
@@ -137,7 +134,7 @@ export async function verifyRecipe(recipe: Recipe, opts: RunOptions = {}): Promi
   }
   const scratch = `${recipe.output}.verify-${process.pid}`;
   try {
-    await runRecipe({ ...recipe, output: scratch }, { ...opts, mode: 'offline', recordedOutput: recipe.output, writeLock: false });
+    await runRecipe({ ...recipe, output: scratch }, { ...opts, mode: 'offline', writeLock: false });
     const rebuilt = await hashTree(scratch);
     const differing: VerifyReport['differing'] = [];
     for (const file of new Set([...existing.keys(), ...rebuilt.keys()])) {

@@ -21,6 +21,7 @@ interface Shared {
   json?: boolean;
   quiet?: boolean;
   debug?: boolean;
+  strict?: boolean;
 }
 
 function shared(cmd: Command): Command {
@@ -30,6 +31,7 @@ function shared(cmd: Command): Command {
     .option('--concurrency <n>', 'requests in flight in all (overrides network.concurrency)')
     .option('--offline', 'use the cache only; never contact a server')
     .option('--frozen', 'allow only requests in the lock file, and only bodies with the locked hashes')
+    .option('--strict', 'treat a problem in a document from someone else\'s server (a bad annotation, an unreadable document, a collection cycle, a refused address) as fatal (exit 2) instead of a failure record')
     .option('--json', 'print a machine-readable summary on stdout')
     .option('--quiet', 'print nothing but errors')
     .option('--debug', 'show stack traces of unexpected errors');
@@ -55,6 +57,7 @@ function runOptions(o: Shared, rep: Reporter, mode?: FetchMode): RunOptions {
     ...(o.cache ? { cacheDir: resolve(o.cache) } : {}),
     mode: mode ?? modeOf(o),
     ...(concurrency ? { concurrency } : {}),
+    ...(o.strict ? { strict: true } : {}),
     warn: (m) => rep.warn(m),
     onProgress: (stage, done, total) => rep.progress(stage, done, total),
   };

@@ -37,8 +37,6 @@ export interface BuildOptions {
   /** Crops stitched at once (CPU work). */
   cpuConcurrency?: number;
   onProgress?: (stage: 'fetch' | 'cut', done: number, total: number) => void;
-  /** The output folder to record in the card when building somewhere else (verify builds into a scratch folder). */
-  recordedOutput?: string;
 }
 
 /** Bump when cutting, encoding or hashing changes, so cached cut results are not reused. */

@@ -261,8 +261,8 @@ export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fe
         documents.push({ location: url, kind: 'info', sha256: loaded.facts.sha256 });
       } catch (err) {
         // A service that cannot be read loses its images, not the run (its regions are skipped as no-image-service).
-        if (opts.strict && err instanceof InputError) throw err;
         const f = failureFrom('info', ref.id, err);
+        if (opts.strict) throw err instanceof InputError ? err : new StrictError(`${f.url ?? ref.id}: ${f.reason}`);
         failures.push(err instanceof InputError ? { ...f, reason: err.pointer === '' ? err.detail : err.message } : f);
       }
     }),

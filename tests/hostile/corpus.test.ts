@@ -59,6 +59,13 @@ const ANNO = (m: Json) => m.items[0].annotations[0].items;
 const sel = (selector: unknown) => ({ type: 'SpecificResource', source: 'https://docs.example.org/canvas/1', selector });
 const jsonReply = (doc: unknown) => [200, JSON.stringify(doc), { 'content-type': 'application/ld+json' }] as [number, string, Record<string, string>];
 const collection = (id: string, items: Json[]) => ({ '@context': 'http://iiif.io/api/presentation/3/context.json', id, type: 'Collection', label: { en: ['c'] }, items });
+/** The manifest as a remote server (docs.example.org) publishes it, with its own canvas ids; the recipe names it by URL. */
+const REMOTE = `${DOCS}/remote/board`;
+const REMOTE_CANVAS = 'https://docs.example.org/canvas/1';
+function publishRemote(c: Ctx, doc: Json = c.manifest): void {
+  if (!c.recipe.sources.some((s: Json) => s.manifest === REMOTE || s.collection)) c.recipe.sources = [{ manifest: REMOTE }];
+  nock(DOCS).get('/remote/board').reply(...jsonReply({ ...doc, id: REMOTE }));
+}
 const serveGoodImage = () => mockImageService(IMG, '/iiif/3/truth.png', src, { version: 3, level: 2 });
 /** Serves the image service's info.json, and answers every image request with `body`. */
 function serveImageBodies(body: Buffer | string, type: string, extra: Record<string, string> = {}) {
@@ -79,6 +86,12 @@ interface Case {
   patches?: boolean;
   /** Skipped-region reasons the card must count. */
   skipped?: Record<string, number>;
+  /** Extra command-line flags. */
+  args?: string[];
+  /** Source notes the card must list. */
+  notes?: unknown[];
+  /** Distinct annotations the patches must come from. */
+  annotations?: number;
 }
 
 const cases: Case[] = [
@@ -100,7 +113,8 @@ const cases: Case[] = [
   { name: 'manifest: a painting body that is not an image is passed over, and its regions counted as not painted', prepare: (c) => { c.manifest.items[0].items[0].items[0].body.type = 'Dataset'; }, code: 0, skipped: { 'not-painted': 1 } },
   { name: 'manifest: a Choice with no items', prepare: (c) => { c.manifest.items[0].items[0].items[0].body = { type: 'Choice', items: [] }; }, code: 2, message: /board\.json at \/items\/0\/items\/0\/items\/0\/body\/items: expected a non-empty array/ },
   { name: 'manifest: label of the wrong type', prepare: (c) => { c.manifest.label = 7; }, code: 2, message: /board\.json at \/label: expected a language map/ },
-  { name: 'manifest: Presentation 2', prepare: (c) => { c.manifest['@context'] = 'http://iiif.io/api/presentation/2/context.json'; }, code: 2, message: /board\.json at \/@context: a Presentation 2 document/ },
+  // A local file is what the user wrote: a Presentation 2 context over a 3.0 body is read as 2.x and refused with its pointer.
+  { name: 'manifest: Presentation 2 context over a 3.0 body (local file)', prepare: (c) => { c.manifest['@context'] = 'http://iiif.io/api/presentation/2/context.json'; }, code: 2, message: /board\.json at \/sequences: expected an array, got nothing/ },
   { name: 'manifest: not a manifest', prepare: (c) => { c.manifest.type = 'Collection'; }, code: 2, message: /board\.json at \/type: expected "Manifest", got "Collection"/ },
   // annotations
   { name: 'annotation: SVG not well-formed', prepare: (c) => { ANNO(c.manifest)[0].target = sel({ type: 'SvgSelector', value: '<svg><polygon points="1,1 50,1 1,50"></svg>' }); }, code: 2, message: /\/items\/0\/annotations\/0\/items\/0\/target\/selector\/value: the SVG is not well-formed XML/ },
@@ -115,13 +129,53 @@ const cases: Case[] = [
   { name: 'sheet: unknown column', prepare: (c) => { c.recipe.sources = [{ sheet: 'regions.csv' }]; c.files['regions.csv'] = 'manifest,canvas,box,label\nboard.json,https://docs.example.org/canvas/1,1,oak\n'; }, code: 2, message: /regions\.csv at \/1: unknown column "box"/ },
   { name: 'sheet: bad xywh cell', prepare: (c) => { c.recipe.sources = [{ sheet: 'regions.csv' }]; c.files['regions.csv'] = 'manifest,canvas,xywh,svg,label,group\nboard.json,https://docs.example.org/canvas/1,"1,2,x,4",,oak,g\n'; }, code: 2, message: /regions\.csv at \/2\/xywh: .*not four non-negative numbers/ },
   // collections
-  { name: 'collection: includes itself', prepare: (c) => { c.recipe.sources = [{ collection: `${DOCS}/c/a` }]; nock(DOCS).get('/c/a').reply(...jsonReply(collection(`${DOCS}/c/a`, [{ id: `${DOCS}/c/a`, type: 'Collection', label: { en: ['a'] } }]))); }, code: 2, message: /https:\/\/docs\.example\.org\/c\/a at \/items\/0: collection "https:\/\/docs\.example\.org\/c\/a" includes itself/ },
-  { name: 'collection: includes itself through two hops', prepare: (c) => {
-    c.recipe.sources = [{ collection: `${DOCS}/c/a` }];
-    nock(DOCS).get('/c/a').reply(...jsonReply(collection(`${DOCS}/c/a`, [{ id: `${DOCS}/c/b`, type: 'Collection', label: { en: ['b'] } }])))
-      .get('/c/b').reply(...jsonReply(collection(`${DOCS}/c/b`, [{ id: `${DOCS}/c/c`, type: 'Collection', label: { en: ['c'] } }])))
-      .get('/c/c').reply(...jsonReply(collection(`${DOCS}/c/c`, [{ id: `${DOCS}/c/a`, type: 'Collection', label: { en: ['a'] } }])));
-  }, code: 2, message: /c\/c at \/items\/0: collection "https:\/\/docs\.example\.org\/c\/a" includes itself \(through .*c\/a → .*c\/b → .*c\/c\)/ },
+  // Policy for documents from someone else's server: recorded, not fatal; --strict makes each fatal (exit 2).
+  ...([[], ['--strict']] as string[][]).flatMap((args): Case[] => {
+    const strict = args.length > 0;
+    const tag = strict ? ' (--strict: exit 2)' : '';
+    return [
+      { name: `collection: includes itself${tag}`, args, prepare: (c) => {
+        c.recipe.sources = [{ collection: `${DOCS}/c/a` }];
+        publishRemote(c);
+        nock(DOCS).get('/c/a').reply(...jsonReply(collection(`${DOCS}/c/a`, [{ id: `${DOCS}/c/a`, type: 'Collection', label: { en: ['a'] } }, { id: REMOTE, type: 'Manifest', label: { en: ['m'] } }])));
+      }, ...(strict
+        ? { code: 2, message: /c\/a at \/items\/0: collection "https:\/\/docs\.example\.org\/c\/a" includes itself .*\(--strict\)/ }
+        : { code: 0, patches: true, notes: [{ kind: 'collection-cycle', collection: `${DOCS}/c/a`, member: `${DOCS}/c/a`, chain: [`${DOCS}/c/a`] }] }) },
+      { name: `collection: includes itself through two hops${tag}`, args, prepare: (c) => {
+        c.recipe.sources = [{ collection: `${DOCS}/c/a` }];
+        publishRemote(c);
+        nock(DOCS).get('/c/a').reply(...jsonReply(collection(`${DOCS}/c/a`, [{ id: `${DOCS}/c/b`, type: 'Collection', label: { en: ['b'] } }])))
+          .get('/c/b').reply(...jsonReply(collection(`${DOCS}/c/b`, [{ id: `${DOCS}/c/c`, type: 'Collection', label: { en: ['c'] } }, { id: REMOTE, type: 'Manifest', label: { en: ['m'] } }])))
+          .get('/c/c').reply(...jsonReply(collection(`${DOCS}/c/c`, [{ id: `${DOCS}/c/a`, type: 'Collection', label: { en: ['a'] } }])));
+      }, ...(strict
+        ? { code: 2, message: /c\/c at \/items\/0: collection "https:\/\/docs\.example\.org\/c\/a" includes itself \(through .*c\/a → .*c\/b → .*c\/c\)/ }
+        : { code: 0, patches: true, notes: [{ kind: 'collection-cycle', collection: `${DOCS}/c/c`, member: `${DOCS}/c/a`, chain: [`${DOCS}/c/a`, `${DOCS}/c/b`, `${DOCS}/c/c`] }] }) },
+      { name: `remote manifest: one bad annotation among good ones${tag}`, args, prepare: (c) => {
+        ANNO(c.manifest).push(
+          { id: `${DOCS}/anno/bad`, type: 'Annotation', motivation: 'tagging', bodyValue: 'oak', target: 42 },
+          { id: `${DOCS}/anno/2`, type: 'Annotation', motivation: 'tagging', bodyValue: 'oak', target: `${REMOTE_CANVAS}#xywh=130,20,60,100` },
+        );
+        publishRemote(c);
+      }, ...(strict
+        ? { code: 2, message: /remote\/board at \/items\/0\/annotations\/0\/items\/1\/target: expected/ }
+        : { code: 1, patches: true, failure: /"stage":"item".*"url":"https:\/\/docs\.example\.org\/remote\/board","pointer":"\/items\/0\/annotations\/0\/items\/1\/target"/, annotations: 2 }) },
+      ...(['127.0.0.1:9', '169.254.169.254'].map((host): Case => ({
+        name: `remote manifest: a public document pointing at ${host}${tag}`, args, prepare: (c) => {
+          // the image service and an annotation page of a manifest from a public host point at a private address
+          c.recipe.sources = [{ manifest: 'board.json' }, { manifest: REMOTE }];
+          const m = structuredClone(c.manifest);
+          c.manifest = JSON.parse(JSON.stringify(c.manifest).replaceAll(REMOTE_CANVAS, `${DOCS}/canvas/9`));
+          m.items[0].items[0].items[0].body.service[0].id = `http://${host}/iiif/secret`;
+          m.items[0].annotations.push({ id: `http://${host}/latest/meta-data/`, type: 'AnnotationPage' });
+          publishRemote(c, m);
+          serveGoodImage();
+        },
+        ...(strict
+          ? { code: 2 as const, message: new RegExp(`refused ${host.split(':')[0].replace(/\./g, '\\.')}.*\\(--strict\\)`) }
+          : { code: 1 as const, patches: true, failure: new RegExp(`"url":"http://${host.replace(/\./g, '\\.')}/(iiif/secret/info\\.json|latest/meta-data/)".*refused ${host.split(':')[0].replace(/\./g, '\\.')}[^"]*: a loopback, private or link-local address`) }),
+      }))),
+    ];
+  }),
   ...(['file:///etc/passwd', 'data:application/json,{}', 'ftp://docs.example.org/m.json'].map((member): Case => ({
     name: `collection: member with ${member.split(':')[0]}: scheme`,
     prepare: (c) => {
@@ -196,7 +250,7 @@ describe('hostile input corpus', () => {
     let out = '', err = '';
     const stdout = { write: (s: string) => ((out += s), true) } as unknown as NodeJS.WriteStream;
     const stderr = { write: (s: string) => ((err += s), true) } as unknown as NodeJS.WriteStream;
-    const code = await main(['run', join(sandbox, 'recipe.json'), '--quiet'], { stdout, stderr });
+    const code = await main(['run', join(sandbox, 'recipe.json'), '--quiet', ...(c.args ?? [])], { stdout, stderr });
     expect(code, err).toBe(c.code);
     expect(err).not.toMatch(/\n\s+at /); // no stack trace without --debug
     if (c.code === 2) {
@@ -208,7 +262,13 @@ describe('hostile input corpus', () => {
       if (c.failure) expect(failures).toMatch(c.failure);
       else expect(failures).toBe('');
       if (c.patches) expect((await readFile(join(sandbox, 'hostile-dataset', 'index.jsonl'), 'utf8')).length).toBeGreaterThan(0);
-      if (c.skipped) expect(JSON.parse(await readFile(join(sandbox, 'hostile-dataset', 'card.json'), 'utf8')).composition.regions.skipped).toEqual(c.skipped);
+      const card = JSON.parse(await readFile(join(sandbox, 'hostile-dataset', 'card.json'), 'utf8'));
+      if (c.skipped) expect(card.composition.regions.skipped).toEqual(c.skipped);
+      if (c.notes) expect(card.composition.sourceNotes).toEqual(c.notes);
+      if (c.annotations !== undefined) {
+        const index = (await readFile(join(sandbox, 'hostile-dataset', 'index.jsonl'), 'utf8')).trim().split('\n').map((l) => JSON.parse(l));
+        expect(new Set(index.filter((r) => r.annotation).map((r) => r.annotation)).size).toBe(c.annotations);
+      }
     }
     // Nothing is written outside the output folder, the cache and the lock beside the recipe.
     for (const f of await walk(dir)) {

@@ -68,7 +68,7 @@ describe('Presentation 2.x manifests', () => {
     // P2.1 §5.3 (scale into canvas), Appendix C; Image 2.1 §4.7
     const { value: m } = readManifest2(manifest([canvas(1, image(v2service))]), 'm');
     const img = m.canvases[0].images[0];
-    const placement = { target: img.target, source: { x: 0, y: 0, w: img.bodyWidth!, h: img.bodyHeight! } };
+    const placement = { target: img.target, source: { x: 0, y: 0, w: img.bodyWidth!, h: img.bodyHeight! }, imageWidth: 1500, imageHeight: 2000 };
     const region = canvasToImage(placement, { x: 100, y: 100, w: 300, h: 50 });
     expect(region).toEqual({ x: 200, y: 200, w: 600, h: 100 });
     expect(imageRequestUrl('http://example.org/images/book1-page1', 2, { region, size: { kind: 'max' }, quality: 'default', format: 'jpg' }))
@@ -82,7 +82,7 @@ describe('Presentation 2.x manifests', () => {
     expect(problems).toEqual([]);
     const img = m.canvases[0].images[0];
     expect(img.selectorRegion).toEqual({ x: 100, y: 100, w: 1000, h: 1600 });
-    expect(canvasToImage({ target: img.target, source: img.selectorRegion! }, { x: 10, y: 10, w: 100, h: 100 })).toEqual({ x: 110, y: 110, w: 100, h: 100 });
+    expect(canvasToImage({ target: img.target, source: img.selectorRegion!, imageWidth: 1200, imageHeight: 1800 }, { x: 10, y: 10, w: 100, h: 100 })).toEqual({ x: 110, y: 110, w: 100, h: 100 });
   });
 
   it('C5: a rotated painting (ImageApiSelector rotation 180) is read with its rotation, never silently dropped', () => {
@@ -188,7 +188,7 @@ describe('Image API 1.x and 2.0 services', () => {
   it('a level-1 1.1 service is asked for native quality at the exact size, in 1.1 syntax', () => {
     // Image 1.1 §4.4 (native), §4.2 (size w,h)
     const svc = parseInfoJson({ '@context': 'http://library.stanford.edu/iiif/image-api/1.1/context.json', '@id': 'http://example.org/v11/board', width: 1200, height: 800, profile: 'http://library.stanford.edu/iiif/image-api/1.1/compliance.html#level2' }, 'http://example.org/v11/board/info.json');
-    const crop = planCrop({ service: svc, placement: { target: { x: 0, y: 0, w: 1200, h: 800 }, source: { x: 0, y: 0, w: 1200, h: 800 } }, scale: 0.5, canvasRect: { x: 100, y: 100, w: 200, h: 100 }, format: 'jpg' });
+    const crop = planCrop({ service: svc, placement: { target: { x: 0, y: 0, w: 1200, h: 800 }, source: { x: 0, y: 0, w: 1200, h: 800 }, imageWidth: 1200, imageHeight: 800 }, scale: 0.5, canvasRect: { x: 100, y: 100, w: 200, h: 100 }, format: 'jpg' });
     expect(crop.stitch.pieces.map((p) => p.url)).toEqual(['http://example.org/v11/board/100,100,200,100/100,50/0/native.jpg']);
   });
 });
