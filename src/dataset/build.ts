@@ -192,7 +192,7 @@ export async function buildDataset(recipe: Recipe, sources: ResolvedSources, pla
         annotation: p.annotationId ?? null,
         annotator: p.annotator ?? null,
         sourceLabel: p.rawLabel ?? null,
-        tags: (p.tags ?? []).map((t) => ({ value: t.value, purpose: t.purpose ?? null, language: t.language ?? null })),
+        tags: (p.tags ?? []).map((t) => ({ value: t.value, purpose: t.purpose ?? null, language: t.language ?? null, raw: t.raw ?? null })),
         bodyChoice: ctx.choice ?? null,
         service: { id: redactUrl(ctx.service.id), version: ctx.service.version, level: ctx.service.level },
         requests: crop.stitch.pieces.map((x) => redactUrl(x.url)),

@@ -20,7 +20,7 @@ export interface IndexRecord {
   annotator: string | null;
   sourceLabel: string | null;
   /** Every body value of the annotation, with purpose and language where given (attributes to filter and stratify by). */
-  tags: { value: string; purpose: string | null; language: string | null }[];
+  tags: { value: string; purpose: string | null; language: string | null; raw: string | null }[];
   /** When the painting body was a Choice: the item taken (the first, Web Annotation §3.2.7) and how many there were. */
   bodyChoice: { chosen: string; of: number } | null;
   service: { id: string; version: number; level: number };
