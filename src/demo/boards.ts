@@ -4,8 +4,8 @@ import { pointInShape, Shape } from '../geometry/shape.ts';
 import { latticeHash } from './noise.ts';
 import { Material, materialColour } from './textures.ts';
 
-/** How a board is served in the demo. */
-export type Flavour = 'image3' | 'image2' | 'static0';
+/** How a board is served in the demo: Image API 3 or 2 at level 2, a static level-0 pyramid, or Image API 1.1 at level 1. */
+export type Flavour = 'image3' | 'image2' | 'static0' | 'image1';
 
 export interface BoardRegion {
   material: Exclude<Material, 'ground'>;
@@ -44,6 +44,7 @@ const MATERIALS: BoardRegion['material'][] = ['graining', 'marbling', 'gilding']
  * 27 boards in three cabinets, of different sizes, each with two or three painted
  * samples (rectangles and polygons). One board of the third cabinet is a copy
  * of a board of the first, as if a second archive served the same picture.
+ * Six more boards belong to a second archive that publishes the older IIIF forms.
  */
 export function demoBoards(): Board[] {
   const boards: Board[] = [];
@@ -85,7 +86,50 @@ export function demoBoards(): Board[] {
   const original = boards[1];
   const copy = boards[26];
   boards[26] = { ...original, slug: copy.slug, title: `${original.title} (loan copy)`, cabinet: copy.cabinet, flavour: 'image2', copyOf: original.slug };
+  boards.push(...secondArchiveBoards());
   return boards;
+}
+
+/** The cabinet of the second invented archive, which still publishes Presentation 2.1 and Image API 1.1. */
+export const SECOND_ARCHIVE_CABINET = 'north-cabinet';
+
+/**
+ * Six boards of a second invented archive (boards 28–33): served by an Image
+ * API 1.1 level-1 server, described by a Presentation 2.1 manifest with Open
+ * Annotation lists. Same painting rules as the first archive's boards.
+ */
+function secondArchiveBoards(): Board[] {
+  const out: Board[] = [];
+  for (let j = 0; j < 6; j++) {
+    const i = 27 + j;
+    const r = (k: number) => latticeHash(i, k, 424242);
+    const width = 720 + Math.floor(r(1) * 6) * 60;
+    const height = 540 + Math.floor(r(2) * 4) * 60;
+    const cellW = Math.floor(width / 2), cellH = Math.floor(height / 2);
+    const regions: BoardRegion[] = [];
+    for (let k = 0; k < 3; k++) {
+      const cx = (k % 2) * cellW, cy = Math.floor(k / 2) * cellH;
+      const pad = 30 + Math.floor(r(10 + k) * 20);
+      const x0 = cx + pad, y0 = cy + pad, x1 = cx + cellW - pad, y1 = cy + cellH - pad;
+      const shape: Shape = k === 1
+        ? { kind: 'polygon', rings: [[{ x: x0, y: y1 }, { x: x0 + (x1 - x0) * 0.2, y: y0 }, { x: x1, y: y0 }, { x: x1 - (x1 - x0) * 0.1, y: y1 }] as Point[]] }
+        : { kind: 'rect', rect: { x: x0, y: y0, w: x1 - x0, h: y1 - y0 } };
+      regions.push({ material: MATERIALS[(j + k) % 3], shape, annotator: (j + k) % 2 === 0 ? 'annotator-a' : 'annotator-b' });
+    }
+    out.push({
+      slug: `board-${String(i + 1).padStart(2, '0')}`,
+      title: `Sample board ${i + 1}`,
+      width,
+      height,
+      canvasPerPixel: j % 2 === 0 ? 0.5 : 1,
+      mmPerPixel: 0.25,
+      seed: 1000 + i,
+      flavour: 'image1',
+      regions,
+      cabinet: SECOND_ARCHIVE_CABINET,
+    });
+  }
+  return out;
 }
 
 /** Paints a board: ground, then each region's material inside its shape. */

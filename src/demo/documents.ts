@@ -1,18 +1,12 @@
-import type { Shape } from '../geometry/shape.ts';
-import { ANNOTATOR_WORDS, Board } from './boards.ts';
+import { ANNOTATOR_WORDS, Board, SECOND_ARCHIVE_CABINET } from './boards.ts';
+import { boardPlacement, canvasIdOf as canvasId, round3 as n, shapeToCanvas } from './canvas-geometry.ts';
+import { secondArchiveDocuments } from './second-archive.ts';
 
 export const DEMO_RIGHTS: Record<string, string> = {
   'east-cabinet': 'http://creativecommons.org/licenses/by/4.0/',
   'west-cabinet': 'http://creativecommons.org/publicdomain/zero/1.0/',
   'loan-cabinet': 'http://rightsstatements.org/vocab/InC-EDU/1.0/',
 };
-
-/** Where a board is painted on its canvas (canvas units): the whole canvas, or inset for every ninth board. */
-export function boardPlacement(board: Board, index: number): { canvasWidth: number; canvasHeight: number; x: number; y: number; w: number; h: number } {
-  const w = board.width * board.canvasPerPixel, h = board.height * board.canvasPerPixel;
-  if (index % 9 === 5) return { canvasWidth: w + 120, canvasHeight: h + 80, x: 120, y: 40, w, h };
-  return { canvasWidth: w, canvasHeight: h, x: 0, y: 0, w, h };
-}
 
 export function serviceFor(base: string, board: Board): Record<string, unknown> {
   switch (board.flavour) {
@@ -22,26 +16,21 @@ export function serviceFor(base: string, board: Board): Record<string, unknown> 
       return { '@id': `${base}/iiif/2/${board.slug}.png`, '@type': 'ImageService2', profile: 'http://iiif.io/api/image/2/level2.json' };
     case 'static0':
       return { id: `${base}/static/${board.slug}`, type: 'ImageService3', profile: 'level0' };
+    case 'image1':
+      // Image API 1.1 §5 context and §8 compliance URI; the trailing slash is as some published manifests write it.
+      return { '@context': 'http://library.stanford.edu/iiif/image-api/1.1/context.json', '@id': `${base}/iiif/1/${board.slug}.png/`, profile: 'http://library.stanford.edu/iiif/image-api/1.1/compliance.html#level1' };
   }
 }
-
-const canvasId = (base: string, b: Board) => `${base}/canvas/${b.slug}`;
-
-function shapeToCanvas(shape: Shape, k: number, dx: number, dy: number): Shape {
-  if (shape.kind === 'rect') return { kind: 'rect', rect: { x: shape.rect.x * k + dx, y: shape.rect.y * k + dy, w: shape.rect.w * k, h: shape.rect.h * k } };
-  return { kind: 'polygon', rings: shape.rings.map((r) => r.map((p) => ({ x: p.x * k + dx, y: p.y * k + dy }))) };
-}
-
-const n = (v: number) => +v.toFixed(3);
 
 /**
  * The demo's IIIF documents, all invented: one Presentation 3 collection of three
  * cabinet manifests, and one W3C AnnotationPage per cabinet written by two
- * annotators who name the same materials differently.
+ * annotators who name the same materials differently; and a second archive's
+ * Presentation 2.1 collection, manifest and Open Annotation lists (`p2/`).
  */
 export function demoDocuments(base: string, boards: readonly Board[]): Map<string, unknown> {
   const docs = new Map<string, unknown>();
-  const cabinets = [...new Set(boards.map((b) => b.cabinet))];
+  const cabinets = [...new Set(boards.map((b) => b.cabinet))].filter((c) => c !== SECOND_ARCHIVE_CABINET);
   docs.set('collection.json', {
     '@context': 'http://iiif.io/api/presentation/3/context.json',
     id: `${base}/collection.json`,
@@ -114,5 +103,6 @@ export function demoDocuments(base: string, boards: readonly Board[]): Map<strin
       items,
     });
   }
+  for (const [path, doc] of secondArchiveDocuments(base, boards)) docs.set(path, doc);
   return docs;
 }

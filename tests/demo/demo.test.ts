@@ -34,8 +34,9 @@ describe('the demo', () => {
     expect(records.length).toBeGreaterThan(300);
     const classes = ['background', 'gilding', 'graining', 'marbling'];
     for (const split of ['train', 'val', 'test']) for (const c of classes) expect(records.some((r) => r.split === split && r.label === c), `${c} in ${split}`).toBe(true);
-    // all three server flavours contributed
-    expect(new Set(records.map((r) => `${r.service.version}/${r.service.level}`))).toEqual(new Set(['3/2', '2/2', '3/0']));
+    // all four server flavours contributed, the second archive's Presentation 2.1 manifest among the sources
+    expect(new Set(records.map((r) => `${r.service.version}/${r.service.level}`))).toEqual(new Set(['3/2', '2/2', '3/0', '1/1']));
+    expect(records.some((r) => r.manifest.endsWith('/p2/manifests/north-cabinet.json') && r.tags.some((t) => t.raw?.startsWith('<p>brush direction')))).toBe(true);
     const card = await readFile(join(a.dataset, 'card.md'), 'utf8');
     expect(card).toContain('## Collection process');
     expect(Object.keys(JSON.parse(await readFile(join(a.dataset, 'lock.json'), 'utf8')).entries).length).toBeGreaterThan(100);
