@@ -31,6 +31,17 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
     expect([...hb.entries()]).toEqual([...ha.entries()]);
   }, 60_000);
 
+  it('does not depend on where it is written: two output folders, byte-identical datasets', async () => {
+    serveScenario(scenarioBoards());
+    const recipe = await scenarioRecipe(join(box.dir, 'where'));
+    const cacheDir = join(box.dir, 'where-cache');
+    await runRecipe({ ...recipe, output: join(box.dir, 'first', 'out') }, { cacheDir });
+    await runRecipe({ ...recipe, output: join(box.dir, 'elsewhere', 'deeper', 'dataset-2') }, { cacheDir, mode: 'offline' });
+    const a = await hashTree(join(box.dir, 'first', 'out')), b = await hashTree(join(box.dir, 'elsewhere', 'deeper', 'dataset-2'));
+    expect(a.size).toBeGreaterThan(20);
+    expect([...b.entries()]).toEqual([...a.entries()]);
+  }, 60_000);
+
   it('keeps its promises patch by patch, and the card counts what the index holds', async () => {
     const boards = scenarioBoards();
     serveScenario(boards);

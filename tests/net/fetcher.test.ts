@@ -191,6 +191,28 @@ describe('refusals and content checks', () => {
     const err = await fetcher.get(`${HOST}/out`, 'json').catch((e) => e);
     expect(err.reason).toBe('host elsewhere.example.net is not in network.allowHosts');
   });
+  it('refuses loopback, private and link-local addresses a document leads to, also through a redirect, unless the recipe names the host', async () => {
+    // RFC 1918 (10/8, 172.16/12, 192.168/16), RFC 3927 (169.254/16), RFC 1122 (127/8), RFC 4193 (fc00::/7), RFC 6761 (localhost)
+    const { fetcher } = makeFetcher(box.dir, { guardNonPublic: true });
+    for (const url of ['http://127.0.0.1:9/x', 'http://10.1.2.3/x', 'http://172.20.0.1/x', 'http://192.168.1.1/x', 'http://169.254.169.254/latest/meta-data/', 'http://[::1]/x', 'http://[fd00::1]/x', 'http://localhost/x', 'http://[::ffff:127.0.0.1]/x']) {
+      const err = await fetcher.get(url, 'json').catch((e) => e);
+      expect(err, url).toBeInstanceOf(FetchError);
+      expect(err.reason, url).toMatch(/^refused .*: a loopback, private or link-local address the recipe does not name/);
+    }
+    nock(HOST).get('/to-metadata').reply(302, '', { location: 'http://169.254.169.254/latest/meta-data/' });
+    const redirected = await fetcher.get(`${HOST}/to-metadata`, 'json').catch((e) => e);
+    expect(redirected.reason).toMatch(/^refused 169\.254\.169\.254/);
+    // public addresses pass the guard (172.32/12 is outside RFC 1918)
+    nock('http://172.32.0.1').get('/ok').reply(...json({ ok: 1 }));
+    expect(JSON.parse((await fetcher.get('http://172.32.0.1/ok', 'json')).body.toString())).toEqual({ ok: 1 });
+    // a host the recipe names is trusted, and so is one network.allowHosts allows
+    fetcher.trustHost('127.0.0.1');
+    nock('http://127.0.0.1:9').get('/x').reply(...json({ local: 1 }));
+    expect(JSON.parse((await fetcher.get('http://127.0.0.1:9/x', 'json')).body.toString())).toEqual({ local: 1 });
+    const allowed = makeFetcher(box.dir, { guardNonPublic: true, allowHosts: ['10.1.2.3'] }).fetcher;
+    nock('http://10.1.2.3').get('/y').reply(...json({ lan: 1 }));
+    expect(JSON.parse((await allowed.get('http://10.1.2.3/y', 'json')).body.toString())).toEqual({ lan: 1 });
+  });
   it('caps the body size', async () => {
     nock(HOST).get('/big').reply(200, Buffer.alloc(5000, 32), { 'content-type': 'application/json' });
     const { fetcher } = makeFetcher(box.dir, { maxBytes: { json: 1000, image: 1000 } });
