@@ -1,7 +1,5 @@
 #!/usr/bin/env node
-// Entry point: registers the TypeScript loader and hands argv to the CLI.
-import { register } from 'tsx/esm/api';
+// Entry point: hands argv to the compiled command line (dist/, built by `npm run build`, which `npm ci` runs).
+import { main } from '../dist/cli/main.js';
 
-register();
-const { main } = await import('../src/cli/main.ts');
 process.exitCode = await main(process.argv.slice(2));

@@ -2,15 +2,16 @@ import { Command, CommanderError, Option } from 'commander';
 import { mkdir, writeFile, access } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
 import { SwatchbookError, UsageError, redactUrl } from '../errors.ts';
-import { loadRecipe } from '../recipe/load.ts';
 import type { Recipe } from '../recipe/types.ts';
-import { harvestRecipe, planRecipe, refetchDrift, runRecipe, verifyRecipe, RunOptions } from '../pipeline.ts';
-import { tracePatch, renderTrace } from '../dataset/trace.ts';
-import { recipeReferenceMarkdown } from '../recipe/schema-doc.ts';
-import { runDemo, DEFAULT_DEMO_PORT } from '../demo/run-demo.ts';
+import type { RunOptions } from '../pipeline.ts';
+import { DEFAULT_DEMO_PORT } from '../demo/defaults.ts';
 import { VERSION } from '../version.ts';
 import { Reporter } from './reporter.ts';
 import type { FetchMode } from '../net/fetcher.ts';
+
+// The heavy modules (sharp, got, ajv, the pipeline) are imported only by the commands that use them,
+// so `--version`, `--help` and usage errors start as fast as Node itself.
+const pipeline = () => import('../pipeline.ts');
 
 interface Shared {
   out?: string;
@@ -43,6 +44,7 @@ function modeOf(o: Shared): FetchMode {
 }
 
 async function recipeWith(path: string, o: Shared): Promise<Recipe> {
+  const { loadRecipe } = await import('../recipe/load.ts');
   const r = await loadRecipe(path);
   return o.out ? { ...r, output: resolve(o.out) } : r;
 }
@@ -103,6 +105,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
         network: { contact: 'mailto:you@example.org', concurrency: 4, perHost: 2, perHostRate: 2, timeoutMs: 30000, retries: 4 },
       };
       await writeFile(file, `${JSON.stringify(starter, null, 2)}\n`);
+      const { recipeReferenceMarkdown } = await import('../recipe/schema-doc.ts');
       await writeFile(join(folder, 'RECIPE.md'), `# Recipe fields\n\nEvery field of recipe.json, from the schema swatchbook validates against.\n\n${recipeReferenceMarkdown()}\n`);
       stdout.write(`wrote ${file} and ${join(folder, 'RECIPE.md')}; edit the sources and labels, then run: swatchbook plan ${file}\n`);
     });
@@ -111,6 +114,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
     .action(async (path: string, o: Shared) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const recipe = await recipeWith(path, o);
+      const { planRecipe } = await pipeline();
       const { plan, sources } = await planRecipe(recipe, runOptions(o, rep));
       const perClass: Record<string, number> = {};
       for (const r of plan.regions) perClass[r.label] = (perClass[r.label] ?? 0) + 1;
@@ -140,6 +144,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
     .action(async (path: string, o: Shared) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const recipe = await recipeWith(path, o);
+      const { harvestRecipe } = await pipeline();
       const { harvest, sources } = await harvestRecipe(recipe, runOptions(o, rep));
       const s = harvest.summary;
       const failures = [...sources.failures, ...harvest.failures];
@@ -153,6 +158,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const recipe = await recipeWith(path, o);
       const mode = o.frozen || o.offline ? modeOf(o) : (defaultMode ?? 'online');
+      const { runRecipe } = await pipeline();
       const { build } = await runRecipe(recipe, runOptions(o, rep, mode));
       print(o, [
         `${rep.bold(`${build.patches} patches`)} (train ${build.perSplit.train}, val ${build.perSplit.val}, test ${build.perSplit.test}) from ${build.crops} crops; ${build.nearDuplicatePairs} near-duplicate pair(s)`,
@@ -170,6 +176,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
     .action(async (path: string, o: Shared & { refetch?: boolean }) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const recipe = await recipeWith(path, o);
+      const { refetchDrift, verifyRecipe } = await pipeline();
       if (o.refetch) {
         const drift = await refetchDrift(recipe, runOptions(o, rep, 'refresh'));
         print(o, [
@@ -189,6 +196,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
     .option('--dataset <dir>', 'dataset folder', '.')
     .option('--json', 'print the chain as JSON')
     .action(async (id: string, o: { dataset: string; json?: boolean }) => {
+      const { tracePatch, renderTrace } = await import('../dataset/trace.ts');
       const { chain } = await tracePatch(resolve(o.dataset), id);
       stdout.write(o.json ? `${JSON.stringify(chain, null, 2)}\n` : `${renderTrace(chain)}\n`);
     });
@@ -202,6 +210,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const port = Number(o.port);
       if (!Number.isInteger(port) || port < 0 || port > 65535) throw new UsageError(`--port must be a port number, got ${JSON.stringify(o.port)}`);
+      const { runDemo } = await import('../demo/run-demo.ts');
       const result = await runDemo(o.out, port, { onStage: (s) => rep.note(s), warn: (m) => rep.warn(m), onProgress: (stage, d, t) => rep.progress(stage, d, t) });
       const b = result.build;
       print(o, [

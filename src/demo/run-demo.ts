@@ -8,7 +8,7 @@ import { demoDocuments } from './documents.ts';
 import { startDemoServer } from './server.ts';
 import { writeDemoSite } from './site.ts';
 
-export const DEFAULT_DEMO_PORT = 8765;
+export { DEFAULT_DEMO_PORT } from './defaults.ts';
 
 export interface DemoResult {
   folder: string;
