@@ -17,8 +17,8 @@ export type ErrorCode =
   | 'E_FROZEN'
   | 'E_OFFLINE'
   | 'E_IMAGE_DECODE'
-  | 'E_CACHE'
-  | 'E_INTERNAL';
+  | 'E_SIZE_MISMATCH'
+  | 'E_PLAN';
 
 export class SwatchbookError extends Error {
   readonly code: ErrorCode;
@@ -67,6 +67,30 @@ export class FetchError extends SwatchbookError {
     this.status = fields.status;
     this.attempts = fields.attempts;
     this.reason = reason;
+  }
+}
+
+/** Why a crop could not be planned (the region is then skipped with this reason). */
+export class PlanError extends SwatchbookError {
+  constructor(message: string) {
+    super('E_PLAN', message, 1);
+    this.name = 'PlanError';
+  }
+}
+
+/** A fetched image that cannot be decoded or used (damaged, too many pixels, missing). */
+export class ImageError extends SwatchbookError {
+  constructor(message: string, options?: { cause?: unknown }) {
+    super('E_IMAGE_DECODE', message, 1, options);
+    this.name = 'ImageError';
+  }
+}
+
+/** A server returned an image of another size than asked, beyond the spec's rounding. */
+export class SizeMismatch extends SwatchbookError {
+  constructor(readonly url: string, readonly expectWidth: number, readonly expectHeight: number, readonly gotWidth: number, readonly gotHeight: number) {
+    super('E_SIZE_MISMATCH', `the server returned ${gotWidth}×${gotHeight} for a ${expectWidth}×${expectHeight} request (a size limit applied silently, or a wrong scale)`, 1);
+    this.name = 'SizeMismatch';
   }
 }
 

@@ -1,6 +1,6 @@
 import sharp from 'sharp';
 import nock from 'nock';
-import type { RgbImage } from '../src/harvest/pixels.ts';
+import type { RgbImage } from '../src/image/pixels.ts';
 
 /**
  * A synthetic image whose pixels encode their own coordinates:

@@ -1,4 +1,4 @@
-import type { RgbImage } from '../harvest/pixels.ts';
+import type { RgbImage } from '../image/pixels.ts';
 import type { Point } from '../geometry/rect.ts';
 import { pointInShape, Shape } from '../geometry/shape.ts';
 import { latticeHash } from './noise.ts';

@@ -1,7 +1,7 @@
 import { mkdir, readFile, rm, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import sharp from 'sharp';
-import { encodePng } from '../harvest/pixels.ts';
+import { encodePng } from '../image/pixels.ts';
 import { sha256Hex } from '../util/hash.ts';
 import { Board, demoBoards, renderBoard } from './boards.ts';
 

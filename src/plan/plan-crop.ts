@@ -1,3 +1,4 @@
+import { PlanError } from '../errors.ts';
 import type { Rect } from '../geometry/rect.ts';
 import { intersect, isEmpty } from '../geometry/rect.ts';
 import { Placement, canvasToImage } from '../geometry/placement.ts';
@@ -27,13 +28,6 @@ export interface CropPlanInput {
   quality?: string;
 }
 
-/** Why a crop could not be planned (the region is then skipped with this reason). */
-export class PlanError extends Error {
-  constructor(message: string) {
-    super(message);
-    this.name = 'PlanError';
-  }
-}
 
 /**
  * Plans one crop: which image requests to make, and how to stitch, crop and

@@ -10,7 +10,8 @@ import type { Recipe } from '../recipe/types.ts';
 import type { ManifestEntry, ResolvedSources } from '../sources/resolve.ts';
 import { byString, seededUnit, stableId } from '../util/hash.ts';
 import type { CropRequest } from './crop-request.ts';
-import { PlanError, planCrop } from './plan-crop.ts';
+import { PlanError } from '../errors.ts';
+import { planCrop } from './plan-crop.ts';
 import { innerOutputBox, ResolvedScale, resolveScale } from './scale.ts';
 
 /** One patch to cut, planned in canvas coordinates before any fetch. */

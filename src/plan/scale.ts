@@ -1,8 +1,7 @@
 import type { Placement } from '../geometry/placement.ts';
 import { PhysicalScale, millimetresPer } from '../iiif/image-service.ts';
+import type { ScaleSpec } from '../recipe/types.ts';
 
-/** The recipe's fixed scale: output pixels per canvas unit, or per millimetre of the physical object. */
-export type ScaleSpec = { pixelsPerCanvasUnit: number } | { pixelsPerMm: number };
 
 export interface ResolvedScale {
   /** Output pixels per canvas unit: the one number every later stage uses. */

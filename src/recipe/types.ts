@@ -1,4 +1,5 @@
-import type { ScaleSpec } from '../plan/scale.ts';
+/** The recipe's fixed scale: output pixels per canvas unit, or per millimetre of the physical object. */
+export type ScaleSpec = { pixelsPerCanvasUnit: number } | { pixelsPerMm: number };
 
 export type SourceSpec =
   | { kind: 'manifest'; location: string; mmPerCanvasUnit?: number }

@@ -6,7 +6,7 @@ import { renderBoard } from '../../src/demo/boards.ts';
 import { demoDocuments } from '../../src/demo/documents.ts';
 import { normaliseRecipe } from '../../src/recipe/load.ts';
 import type { Recipe } from '../../src/recipe/types.ts';
-import type { RgbImage } from '../../src/harvest/pixels.ts';
+import type { RgbImage } from '../../src/image/pixels.ts';
 import { latticeHash } from '../../src/demo/noise.ts';
 import { mockImageService } from '../coord-image.ts';
 

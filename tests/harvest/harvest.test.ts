@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { harvestCrops } from '../../src/harvest/harvest.ts';
-import { stitchCrop } from '../../src/harvest/stitch.ts';
+import { stitchCrop } from '../../src/cut/stitch.ts';
 import { parseInfoJson, ImageService } from '../../src/iiif/image-service.ts';
 import { planCrop } from '../../src/plan/plan-crop.ts';
 import type { Placement } from '../../src/geometry/placement.ts';
@@ -94,7 +94,7 @@ describe('harvesting crops', () => {
 
 describe('decoding shared pieces', () => {
   it('decodes a piece shared by several crops once', async () => {
-    const { memoisedDecoder } = await import('../../src/harvest/stitch.ts');
+    const { memoisedDecoder } = await import('../../src/cut/stitch.ts');
     const sharp = (await import('sharp')).default;
     const png = await sharp({ create: { width: 8, height: 8, channels: 3, background: '#123456' } }).png().toBuffer();
     const decode = memoisedDecoder(2);

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { planCrop, PlanError } from '../../src/plan/plan-crop.ts';
+import { planCrop } from '../../src/plan/plan-crop.ts';
+import { PlanError } from '../../src/errors.ts';
 import { chooseScaleFactor, tilesCovering } from '../../src/plan/level0.ts';
 import { splitWithinLimits } from '../../src/plan/limits.ts';
 import { outputBox, resolveScale } from '../../src/plan/scale.ts';

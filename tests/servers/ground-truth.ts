@@ -1,5 +1,5 @@
 import sharp from 'sharp';
-import type { RgbImage } from '../../src/harvest/pixels.ts';
+import type { RgbImage } from '../../src/image/pixels.ts';
 
 /**
  * A synthetic source whose pixels say where they are: smooth waves of different

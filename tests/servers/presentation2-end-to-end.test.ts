@@ -7,7 +7,7 @@ import { startDemoServer, DemoServer } from '../../src/demo/server.ts';
 import { normaliseRecipe } from '../../src/recipe/load.ts';
 import { runRecipe } from '../../src/pipeline.ts';
 import { parseIndex } from '../../src/dataset/records.ts';
-import type { RgbImage } from '../../src/harvest/pixels.ts';
+import type { RgbImage } from '../../src/image/pixels.ts';
 import { patchError, truthImage } from './ground-truth.ts';
 
 // A Presentation 2.1 manifest with Open Annotation lists, painting an Image API 1.1 level-1 service, harvested from a

@@ -9,7 +9,7 @@ import { parseIndex, IndexRecord } from '../../src/dataset/records.ts';
 import { parseInfoJson } from '../../src/iiif/image-service.ts';
 import { planCrop } from '../../src/plan/plan-crop.ts';
 import { harvestCrops } from '../../src/harvest/harvest.ts';
-import type { RgbImage } from '../../src/harvest/pixels.ts';
+import type { RgbImage } from '../../src/image/pixels.ts';
 import { iipAvailable } from './availability.ts';
 import { pyramidalTiff, startIipsrv, RunningServer } from './iipsrv.ts';
 import { startProcessorServer } from './processor.ts';

@@ -1,4 +1,5 @@
 import sharp from 'sharp';
+import { ImageError } from '../errors.ts';
 
 /** Decoded pixels: 3-channel sRGB, row-major, 8 bits per channel. */
 export interface RgbImage {
@@ -13,8 +14,8 @@ export const DEFAULT_PIXEL_LIMIT = 100_000_000;
 /** Reads width and height from the header only (no full decode). */
 export async function imageSize(body: Buffer, pixelLimit = DEFAULT_PIXEL_LIMIT): Promise<{ width: number; height: number; format: string }> {
   const meta = await sharp(body, { limitInputPixels: pixelLimit }).metadata();
-  if (!meta.width || !meta.height) throw new Error('the image has no readable size');
-  if (meta.width * meta.height > pixelLimit) throw new Error(`the image claims ${meta.width}×${meta.height} pixels, more than the ${pixelLimit}-pixel limit`);
+  if (!meta.width || !meta.height) throw new ImageError('the image has no readable size');
+  if (meta.width * meta.height > pixelLimit) throw new ImageError(`the image claims ${meta.width}×${meta.height} pixels, more than the ${pixelLimit}-pixel limit`);
   return { width: meta.width, height: meta.height, format: meta.format ?? 'unknown' };
 }
 
@@ -80,4 +81,9 @@ export async function encodePng(img: RgbImage): Promise<Buffer> {
   return sharp(img.data, { raw: { width: img.width, height: img.height, channels: 3 } })
     .png({ compressionLevel: 6, adaptiveFiltering: false, palette: false })
     .toBuffer();
+}
+
+/** The image library's versions, for the card and for keys of cached cut results. */
+export function imageLibraryVersions(): { sharp: string; libvips: string } {
+  return { sharp: sharp.versions.sharp ?? 'unknown', libvips: sharp.versions.vips };
 }

@@ -1,5 +1,6 @@
+import { ImageError, SizeMismatch } from '../errors.ts';
 import type { CropRequest } from '../plan/crop-request.ts';
-import { RgbImage, blit, decodeRgb, extractRgb, resizeRgb } from './pixels.ts';
+import { RgbImage, blit, decodeRgb, extractRgb, resizeRgb } from '../image/pixels.ts';
 
 /**
  * Assembles a crop from its fetched pieces per its stitch recipe: each piece is
@@ -18,7 +19,7 @@ export async function stitchCrop(
   let resampledPieces = 0;
   for (const piece of stitch.pieces) {
     const body = bodyOf(piece.url);
-    if (!body) throw new Error(`piece ${piece.url} is not available`);
+    if (!body) throw new ImageError(`piece ${piece.url} is not available`);
     let img = await decode(piece.url, body);
     if (Math.abs(img.width - piece.expectWidth) > piece.tolerance || Math.abs(img.height - piece.expectHeight) > piece.tolerance) {
       throw new SizeMismatch(piece.url, piece.expectWidth, piece.expectHeight, img.width, img.height);
@@ -35,12 +36,6 @@ export async function stitchCrop(
   return { image, resampledPieces };
 }
 
-export class SizeMismatch extends Error {
-  constructor(readonly url: string, readonly expectWidth: number, readonly expectHeight: number, readonly gotWidth: number, readonly gotHeight: number) {
-    super(`the server returned ${gotWidth}×${gotHeight} for a ${expectWidth}×${expectHeight} request (a size limit applied silently, or a wrong scale)`);
-    this.name = 'SizeMismatch';
-  }
-}
 
 /**
  * A decoder that remembers the last `capacity` decoded pieces, so a level-0 tile
