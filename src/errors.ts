@@ -137,6 +137,13 @@ export interface FailureRecord {
   reason: string;
 }
 
+/** The text of an error for a failure record: a FetchError's reason, an InputError's location and detail, else its message. */
+export function reasonOf(err: unknown): string {
+  if (err instanceof FetchError) return err.reason;
+  if (err instanceof Error) return redactUrl(err.message);
+  return String(err);
+}
+
 /**
  * The one conversion from an error to a failure record: a FetchError keeps its
  * URL, status and attempts; an InputError from a remote document keeps its URL

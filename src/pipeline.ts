@@ -9,8 +9,24 @@ import { harvestCrops, HarvestResult } from './harvest/harvest.ts';
 import { planDataset, DatasetPlan } from './plan/plan-dataset.ts';
 import type { Recipe } from './recipe/types.ts';
 import { resolveSources, ResolvedSources } from './sources/resolve.ts';
-import { buildDataset, BuildOptions, BuildSummary } from './dataset/build.ts';
+import { cutPatches } from './cut/cut-patches.ts';
+import { assembleDataset } from './dataset/assemble.ts';
+import { toolVersions } from './dataset/tool-versions.ts';
+import { writeDataset } from './dataset/write-dataset.ts';
+import { FolderTransaction } from './dataset/write-folder.ts';
+import { serialiseLock } from './net/lock.ts';
 import { sha256Hex } from './util/hash.ts';
+
+export interface BuildSummary {
+  patches: number;
+  perSplit: Record<string, number>;
+  crops: number;
+  cropsFailed: number;
+  failures: number;
+  nearDuplicatePairs: number;
+  harvest: HarvestResult['summary'];
+  out: string;
+}
 
 export interface RunOptions {
   cacheDir?: string;
@@ -18,7 +34,9 @@ export interface RunOptions {
   concurrency?: number;
   onEvent?: (e: FetchEvent) => void;
   warn?: (message: string) => void;
-  onProgress?: BuildOptions['onProgress'];
+  onProgress?: (stage: 'fetch' | 'cut', done: number, total: number) => void;
+  /** Crops stitched at once (CPU work). */
+  cpuConcurrency?: number;
   /** Write `<name>.lock.json` beside the recipe (default true; verify does not). */
   writeLock?: boolean;
   /** Problems in documents from other servers are fatal (exit 2) instead of failure records. */
@@ -86,13 +104,46 @@ export async function harvestRecipe(recipe: Recipe, opts: RunOptions = {}): Prom
   return { ...planned, harvest };
 }
 
-/** Plans, harvests and builds the dataset folder. */
+/**
+ * Plans, harvests and builds the dataset folder, one stage after the other:
+ * harvest (pieces into the cache; their hashes), cut (pieces read from the cache
+ * by sha256, never through the fetcher), assemble (pure: near-duplicates, splits,
+ * records, card), write (into a folder transaction, renamed into place when
+ * complete). The lock is built once, from what the harvest used.
+ */
 export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { build: BuildSummary }> {
   const planned = await planRecipe(recipe, opts);
-  const build = await buildDataset(recipe, planned.sources, planned.plan, planned.fetcher, {
-    ...(opts.onProgress ? { onProgress: opts.onProgress } : {}),
-  });
-  if ((opts.mode ?? 'online') !== 'frozen' && opts.writeLock !== false) await writeLock(lockPathFor(recipe), lockFrom(planned.fetcher.used.values()));
+  const { plan, sources, fetcher } = planned;
+  const harvest = await harvestCrops(plan.crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
+  const lock = lockFrom(fetcher.used.values());
+  const tx = await FolderTransaction.begin(recipe.output);
+  let build: BuildSummary;
+  try {
+    const staging = tx.path('.staging');
+    await mkdir(staging, { recursive: true });
+    const cut = await cutPatches(plan, harvest.served, fetcher.options.cache, staging, {
+      ...(opts.cpuConcurrency ? { cpuConcurrency: opts.cpuConcurrency } : {}),
+      onProgress: (d, t) => opts.onProgress?.('cut', d, t),
+    });
+    const tool = toolVersions();
+    const data = assembleDataset({ recipe, sources, plan, served: harvest.served, harvestFailures: harvest.failures, cuts: cut.cuts, cutFailures: cut.failures, resampledPieces: cut.resampledPieces, tool });
+    await writeDataset(tx, staging, data, serialiseLock(lock), recipe.name, tool);
+    await tx.commit();
+    build = {
+      patches: data.records.length,
+      perSplit: data.perSplit,
+      crops: plan.crops.length,
+      cropsFailed: plan.crops.length - harvest.served.size + cut.failures.length,
+      failures: data.failures.length,
+      nearDuplicatePairs: data.pairs.length,
+      harvest: harvest.summary,
+      out: recipe.output,
+    };
+  } catch (err) {
+    await tx.abort();
+    throw err;
+  }
+  if ((opts.mode ?? 'online') !== 'frozen' && opts.writeLock !== false) await writeLock(lockPathFor(recipe), lock);
   await logRun(recipe, opts, 'build', build);
   return { ...planned, build };
 }

@@ -1,8 +1,12 @@
 import { readFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { UsageError } from '../errors.ts';
-import type { LockFile } from '../net/lock.ts';
 import { parseIndex, IndexRecord } from './records.ts';
+
+/** What trace reads from the dataset's lock.json: the response facts by request URL. */
+interface LockedFacts {
+  entries: Record<string, { sha256?: string; etag?: string | null; lastModified?: string | null; finalUrl?: string | null }>;
+}
 
 export interface TraceLink {
   step: string;
@@ -19,9 +23,9 @@ export async function tracePatch(dataset: string, patchId: string): Promise<{ re
   }
   const record = parseIndex(index).find((r) => r.id === patchId);
   if (!record) throw new UsageError(`patch ${patchId} is not in ${dataset}/index.jsonl`);
-  let lock: LockFile = { lockVersion: 1, entries: {} };
+  let lock: LockedFacts = { entries: {} };
   try {
-    lock = JSON.parse(await readFile(join(dataset, 'lock.json'), 'utf8')) as LockFile;
+    lock = JSON.parse(await readFile(join(dataset, 'lock.json'), 'utf8')) as LockedFacts;
   } catch {
     // trace still works without the lock, with fewer facts
   }

@@ -1,0 +1,141 @@
+import { dirname, isAbsolute, relative } from 'node:path';
+import { FailureRecord, redactUrl } from '../errors.ts';
+import type { Cut } from '../cut/cut-patches.ts';
+import type { PieceOutcome } from '../harvest/harvest.ts';
+import type { DatasetPlan, PatchPlan } from '../plan/plan-dataset.ts';
+import type { Recipe } from '../recipe/types.ts';
+import type { ResolvedSources } from '../sources/resolve.ts';
+import { assignSplits, SPLITS } from '../split/assign.ts';
+import { mergeGroups, nearDuplicatePairs, NearDuplicatePair } from '../split/near-duplicates.ts';
+import { byString } from '../util/hash.ts';
+import { buildCard, Card } from './card.ts';
+import type { IndexRecord } from './records.ts';
+
+/** The versions a dataset records (no wall-clock time, no machine name). */
+export interface ToolVersions {
+  name: string;
+  version: string;
+  sharp: string;
+  libvips: string;
+  node: string;
+}
+
+export interface AssembleInput {
+  recipe: Recipe;
+  sources: Pick<ResolvedSources, 'failures' | 'notes' | 'documents'>;
+  plan: DatasetPlan;
+  /** Crops whose every piece was served, with the pieces' final URLs and sha256, by crop key. */
+  served: ReadonlyMap<string, readonly PieceOutcome[]>;
+  harvestFailures: readonly FailureRecord[];
+  cuts: ReadonlyMap<string, Cut>;
+  cutFailures: readonly FailureRecord[];
+  resampledPieces: number;
+  tool: ToolVersions;
+}
+
+/** Everything the write stage writes, in its final order. */
+export interface AssembledDataset {
+  records: IndexRecord[];
+  failures: FailureRecord[];
+  card: Card;
+  pairs: NearDuplicatePair[];
+  perSplit: Record<string, number>;
+}
+
+/**
+ * The recipe as written into the card: defaults filled, local paths relative to
+ * the recipe's folder, and no output folder: the dataset's bytes must not depend
+ * on where it is written.
+ */
+export function recipeForCard(recipe: Recipe): unknown {
+  const base = dirname(recipe.file);
+  const rel = (p: string) => (/^https?:\/\//i.test(p) ? redactUrl(p) : !isAbsolute(p) ? p : relative(base, p) || '.');
+  const { file: _file, output: _output, ...rest } = recipe;
+  return {
+    ...rest,
+    sources: recipe.sources.map((s) => ({ [s.kind]: rel(s.location), ...('mmPerCanvasUnit' in s && s.mmPerCanvasUnit !== undefined ? { mmPerCanvasUnit: s.mmPerCanvasUnit } : {}) })),
+  };
+}
+
+/**
+ * Assembles the dataset from the plan and what was cut (pure): near-duplicates
+ * across groups join their groups, splits are assigned per group, every patch
+ * gets its index record with its provenance, and the card is built. Records are
+ * sorted by id and failures by stage and key, never by arrival.
+ */
+export function assembleDataset(i: AssembleInput): AssembledDataset {
+  const { recipe, plan, cuts } = i;
+  const failures: FailureRecord[] = [...i.sources.failures, ...i.harvestFailures, ...i.cutFailures];
+  const kept = plan.patches.filter((p) => cuts.has(p.id));
+  const pairs = nearDuplicatePairs(kept.map((p) => ({ id: p.id, group: p.group, hash: cuts.get(p.id)!.phash, textured: cuts.get(p.id)!.textured })), recipe.dedupe.maxDistance);
+  const merged = mergeGroups(kept.map((p) => p.group), pairs.map((x) => x.groups));
+  const groupOf = (p: PatchPlan) => merged.get(p.group) ?? p.group;
+  const mergedGroups = new Set([...merged.entries()].filter(([g, r]) => g !== r).map(([g]) => g)).size;
+  const classesByGroup = new Map<string, Record<string, number>>();
+  for (const p of kept) {
+    const g = groupOf(p);
+    const c = classesByGroup.get(g) ?? {};
+    c[p.label] = (c[p.label] ?? 0) + 1;
+    classesByGroup.set(g, c);
+  }
+  const assignment = assignSplits([...classesByGroup.entries()].map(([key, classes]) => ({ key, classes })), recipe.seed, recipe.split.fractions);
+  const cropByKey = new Map(plan.crops.map((c) => [c.key, c]));
+
+  const records: IndexRecord[] = kept.map((p) => {
+    const crop = cropByKey.get(p.cropKey)!;
+    const ctx = plan.contexts.get(p.cropKey)!;
+    const cut = cuts.get(p.id)!;
+    const split = assignment.byGroup.get(groupOf(p))!;
+    return {
+      id: p.id,
+      split,
+      label: p.label,
+      kind: p.kind,
+      file: `patches/${split}/${p.label}/${p.id}.png`,
+      sha256: cut.sha256,
+      phash: cut.phash,
+      coverage: p.coverage,
+      group: groupOf(p),
+      manifest: redactUrl(p.manifestId),
+      collections: ctx.collections.map(redactUrl),
+      canvas: redactUrl(p.canvasId),
+      annotation: p.annotationId ?? null,
+      annotator: p.annotator ?? null,
+      sourceLabel: p.rawLabel ?? null,
+      tags: (p.tags ?? []).map((t) => ({ value: t.value, purpose: t.purpose ?? null, language: t.language ?? null, raw: t.raw ?? null })),
+      bodyChoice: ctx.choice ?? null,
+      service: { id: redactUrl(ctx.service.id), version: ctx.service.version, level: ctx.service.level },
+      requests: crop.stitch.pieces.map((x) => redactUrl(x.url)),
+      responses: (i.served.get(p.cropKey) ?? []).map((o) => ({ url: redactUrl(o.url), sha256: o.sha256 })),
+      canvasRegion: p.canvasRegion,
+      imageRegion: p.imageRegion,
+      scale: { pixelsPerCanvasUnit: ctx.scale.pixelsPerCanvasUnit, basis: ctx.scale.basis, mmPerCanvasUnit: ctx.scale.mmPerCanvasUnit ?? null },
+      crop: p.cropKey,
+      rights: ctx.provenance.rights ?? null,
+      requiredStatement: ctx.provenance.requiredStatement ?? null,
+      provider: ctx.provenance.provider,
+      logos: (ctx.provenance.logos ?? []).map(redactUrl),
+      partOf: (ctx.provenance.partOf ?? []).map(redactUrl),
+    };
+  });
+  records.sort((a, b) => byString(a.id, b.id));
+  failures.sort((a, b) => byString(a.stage, b.stage) || byString(a.key, b.key) || byString(a.reason, b.reason));
+
+  const card = buildCard({
+    recipe,
+    recipeShown: recipeForCard(recipe),
+    records,
+    plan,
+    failures,
+    pairs,
+    mergedGroups,
+    assignment,
+    notes: i.sources.notes ?? [],
+    sources: i.sources.documents.map((d) => ({ ...d, location: /^https?:/.test(d.location) ? redactUrl(d.location) : relative(dirname(recipe.file), d.location) })),
+    tool: i.tool,
+    droppedPatches: plan.patches.length - kept.length,
+    resampledPieces: i.resampledPieces,
+  });
+  const perSplit = Object.fromEntries(SPLITS.map((s) => [s, records.filter((r) => r.split === s).length]));
+  return { records, failures, card, pairs, perSplit };
+}
