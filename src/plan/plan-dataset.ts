@@ -1,6 +1,5 @@
 import type { Rect } from '../geometry/rect.ts';
 import { intersects, tidyRect } from '../geometry/rect.ts';
-import { integralOf, rasterise } from '../geometry/mask.ts';
 import { Placement, canvasToImage } from '../geometry/placement.ts';
 import type { ImageService } from '../iiif/image-service.ts';
 import { mergeProvenance, PaintedImage, Provenance } from '../iiif/presentation.ts';
@@ -8,7 +7,9 @@ import { CanvasContext, CanvasLookup, canvasKey, extractRegions, labelIndex, Reg
 import type { BodyTag } from '../annotation/body-tags.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ManifestEntry, ResolvedSources } from '../sources/resolve.ts';
-import { byString, seededUnit, stableId } from '../util/hash.ts';
+import { byString, stableId } from '../util/hash.ts';
+import { positivePatches } from '../patch/positives.ts';
+import { NegativeCanvas, planNegatives } from '../patch/negatives.ts';
 import type { CropRequest } from './crop-request.ts';
 import { PlanError } from '../errors.ts';
 import { planCrop } from './plan-crop.ts';
@@ -123,8 +124,6 @@ function occludersOf(images: readonly PaintedImage[], image: PaintedImage): Rect
   return images.filter((o) => o.order > image.order && intersects(o.target, image.target)).map((o) => o.target);
 }
 
-const overlapsAny = (r: Rect, rects: readonly Rect[]) => rects.some((o) => intersects(r, o));
-
 /**
  * Plans the whole dataset: regions from annotations, one crop per region, the
  * positive patches each crop yields (by mask coverage), and seeded negatives on
@@ -197,53 +196,32 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
       skipped.push({ key: region.key, reason: 'unplannable', detail: err.message });
       continue;
     }
-    const box = crop.outputBox;
-    const origins = (start: number, len: number) => {
-      const out: number[] = [];
-      for (let u = Math.ceil(start / s.stride) * s.stride; u + s.size <= start + len; u += s.stride) out.push(u);
-      return out;
-    };
-    const us = origins(box.x, box.w), vs = origins(box.y, box.h);
-    if (us.length === 0 || vs.length === 0) {
-      skipped.push({ key: region.key, reason: 'too-small-for-a-patch', detail: `the region is ${box.w}×${box.h} px at this scale, smaller than one ${s.size}-px patch on the grid` });
+    const { patches: found, fits, hidden } = positivePatches({ box: crop.outputBox, px, size: s.size, stride: s.stride, minCoverage: s.minCoverage, shape: region.shape, occluders: prep.occluders });
+    if (!fits) {
+      skipped.push({ key: region.key, reason: 'too-small-for-a-patch', detail: `the region is ${crop.outputBox.w}×${crop.outputBox.h} px at this scale, smaller than one ${s.size}-px patch on the grid` });
       continue;
     }
-    const mask = rasterise([region.shape], { originX: box.x / px, originY: box.y / px, scaleX: px, scaleY: px, width: box.w, height: box.h });
-    const cover = integralOf(mask);
-    let kept = 0;
-    let hidden = 0;
-    for (const v of vs) {
-      for (const u of us) {
-        const inCrop = { x: u - box.x, y: v - box.y, w: s.size, h: s.size };
-        const coverage = cover(inCrop);
-        if (coverage < s.minCoverage) continue;
-        const canvasRegion = { x: u / px, y: v / px, w: s.size / px, h: s.size / px };
-        // A patch partly under a later-painted image would show pixels nobody sees on the canvas.
-        if (overlapsAny(canvasRegion, prep.occluders)) {
-          hidden++;
-          continue;
-        }
-        patches.push({
-          id: stableId(['positive', region.key, px, u, v, s.size]),
-          label: region.label,
-          kind: 'positive',
-          group: groupOf(region, recipe.split.groupBy),
-          manifestId: region.manifestId,
-          canvasId: region.canvasId,
-          annotationId: region.annotationId,
-          ...(region.annotator ? { annotator: region.annotator } : {}),
-          rawLabel: region.rawLabel,
-          tags: region.tags,
-          regionKey: region.key,
-          cropKey: crop.key,
-          inCrop,
-          canvasRegion: tidyRect(canvasRegion),
-          imageRegion: tidyRect(canvasToImage(placement, canvasRegion)),
-          coverage: Math.round(coverage * 1e4) / 1e4,
-        });
-        kept++;
-      }
+    for (const f of found) {
+      patches.push({
+        id: stableId(['positive', region.key, px, f.u, f.v, s.size]),
+        label: region.label,
+        kind: 'positive',
+        group: groupOf(region, recipe.split.groupBy),
+        manifestId: region.manifestId,
+        canvasId: region.canvasId,
+        annotationId: region.annotationId,
+        ...(region.annotator ? { annotator: region.annotator } : {}),
+        rawLabel: region.rawLabel,
+        tags: region.tags,
+        regionKey: region.key,
+        cropKey: crop.key,
+        inCrop: f.inCrop,
+        canvasRegion: tidyRect(f.canvasRegion),
+        imageRegion: tidyRect(canvasToImage(placement, f.canvasRegion)),
+        coverage: f.coverage,
+      });
     }
+    const kept = found.length;
     if (kept === 0 && hidden > 0) {
       skipped.push({ key: region.key, reason: 'covered-by-another-image', detail: `every patch that meets the coverage lies partly under an image painted later on the canvas (${hidden} patch(es))` });
       continue;
@@ -257,7 +235,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
     positivesPerCanvas.set(ck, (positivesPerCanvas.get(ck) ?? 0) + kept);
   }
 
-  const negatives = planNegatives(recipe, regions, positivesPerCanvas, canvases, obstacles, prepare, addCrop, patches);
+  const negatives = addNegatives(recipe, regions, positivesPerCanvas, canvases, obstacles, prepare, addCrop, patches);
   patches.sort((a, b) => byString(a.id, b.id));
   skipped.sort((a, b) => byString(a.key, b.key) || byString(a.reason, b.reason));
   return {
@@ -274,60 +252,36 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
 type Ready = { ctx: CropContext; placement: Placement; image: PaintedImage; occluders: Rect[] };
 type Prepared = Ready | { skip: PlanSkipReason; detail: string };
 
-interface Candidate {
-  canvasId: string;
-  u: number;
-  v: number;
-  rank: number;
-}
-
-function planNegatives(
+/**
+ * Turns the negative plan (pure sampling in src/patch/negatives.ts over plain
+ * per-canvas facts) into crops and patch records.
+ */
+function addNegatives(
   recipe: Recipe,
-  regions: Region[],
-  positivesPerCanvas: Map<string, number>,
+  regions: readonly Region[],
+  positivesPerCanvas: ReadonlyMap<string, number>,
   canvases: CanvasLookup<CanvasContext & { entry: ManifestEntry }>,
-  obstacles: Map<string, Rect[]>,
-  prepare: (canvasId: string, bounds: Rect) => Prepared,
+  obstacles: ReadonlyMap<string, Rect[]>,
+  prepare: (canvasKey: string, bounds: Rect) => Prepared,
   addCrop: (crop: CropRequest, ctx: CropContext) => void,
   patches: PatchPlan[],
 ): DatasetPlan['negatives'] {
-  const { ratio, margin, label } = recipe.negatives;
   const size = recipe.patch.size;
-  const classes = Object.keys(recipe.labels).length;
-  const positives = [...positivesPerCanvas.values()].reduce((a, b) => a + b, 0);
-  const wanted = Math.round((ratio * positives) / classes);
-  if (wanted === 0) return { wanted: 0, planned: 0, borrowedWithinGroup: 0, shortfall: 0 };
-
-  const canvasIds = [...positivesPerCanvas.keys()].sort(byString);
-  // Quotas proportional to positives per canvas, largest remainder, ties by canvas id.
-  const exact = canvasIds.map((id) => (wanted * positivesPerCanvas.get(id)!) / positives);
-  const quota = exact.map(Math.floor);
-  let left = wanted - quota.reduce((a, b) => a + b, 0);
-  const order = canvasIds.map((id, i) => ({ i, r: exact[i] - quota[i], id })).sort((a, b) => b.r - a.r || byString(a.id, b.id));
-  for (const o of order) if (left-- > 0) quota[o.i]++;
-
-  // Candidate positions per canvas: stride = size, inside the painted image, clear of every annotated area by the margin.
-  // Candidates are computed per canvas when needed and not kept: memory stays flat in the number of canvases.
-  const candidatesOf = (canvasId: string): { list: Candidate[]; prep: Ready | undefined } => {
-    const c = canvases.byCanvasKey(canvasId)!;
-    const whole = { x: 0, y: 0, w: c.canvas.width, h: c.canvas.height };
-    const prep = prepare(canvasId, whole);
-    if ('skip' in prep) return { list: [], prep: undefined };
-    const px: number = prep.ctx.scale.pixelsPerCanvasUnit;
-    const painted = innerOutputBox(prep.placement.target, px);
-    // Labelled areas, and images painted over this one (their pixels are not this image's), are kept clear.
-    const obs = [...(obstacles.get(canvasId) ?? []), ...prep.occluders];
-    const list: Candidate[] = [];
-    for (let v = Math.ceil(painted.y / size) * size; v + size <= painted.y + painted.h; v += size) {
-      for (let u = Math.ceil(painted.x / size) * size; u + size <= painted.x + painted.w; u += size) {
-        const grown = { x: (u - margin) / px, y: (v - margin) / px, w: (size + 2 * margin) / px, h: (size + 2 * margin) / px };
-        if (obs.some((o) => intersects(grown, o) || (o.w === 0 && o.h === 0 && o.x >= grown.x && o.x <= grown.x + grown.w && o.y >= grown.y && o.y <= grown.y + grown.h))) continue;
-        list.push({ canvasId, u, v, rank: seededUnit(recipe.seed, 'negative', canvases.isShared(c.canvas.id) ? canvasId : c.canvas.id, u, v) });
-      }
-    }
-    list.sort((a, b) => a.rank - b.rank || a.v - b.v || a.u - b.u);
-    return { list, prep };
+  const groupOfCanvas = (key: string) => {
+    const c = canvases.byCanvasKey(key)!;
+    return recipe.split.groupBy === 'manifest' ? `manifest:${c.manifest.id}` : `canvas:${c.canvas.id}`;
   };
+  const ready = new Map<string, Ready>();
+  const facts: NegativeCanvas[] = [...positivesPerCanvas.entries()].map(([key, positives]) => {
+    const c = canvases.byCanvasKey(key)!;
+    const prep = prepare(key, { x: 0, y: 0, w: c.canvas.width, h: c.canvas.height });
+    const rankKey = canvases.isShared(c.canvas.id) ? key : c.canvas.id;
+    if ('skip' in prep) return { key, group: groupOfCanvas(key), positives, px: 1, obstacles: [], rankKey };
+    ready.set(key, prep);
+    const px = prep.ctx.scale.pixelsPerCanvasUnit;
+    return { key, group: groupOfCanvas(key), positives, px, painted: innerOutputBox(prep.placement.target, px), obstacles: [...(obstacles.get(key) ?? []), ...prep.occluders], rankKey };
+  });
+  const plan = planNegatives({ seed: recipe.seed, ratio: recipe.negatives.ratio, margin: recipe.negatives.margin, size, classes: Object.keys(recipe.labels).length }, facts);
   const regionsByCanvas = new Map<string, Region[]>();
   for (const r of regions) {
     const k = canvasKey(r.manifestId, r.canvasId);
@@ -335,43 +289,17 @@ function planNegatives(
     if (list) list.push(r);
     else regionsByCanvas.set(k, [r]);
   }
-
-  const groupOfCanvas = (key: string) => {
-    const c = canvases.byCanvasKey(key)!;
-    return recipe.split.groupBy === 'manifest' ? `manifest:${c.manifest.id}` : `canvas:${c.canvas.id}`;
-  };
-  const taken = new Map<string, number>();
-  let borrowed = 0;
-  let planned = 0;
-  const take = (canvasId: string, n: number): number => {
-    if (n <= 0) return 0;
-    const entry = candidatesOf(canvasId);
-    const start = taken.get(canvasId) ?? 0;
-    const chosen = entry.list.slice(start, start + n);
-    taken.set(canvasId, start + chosen.length);
-    for (const cand of chosen) emit(cand, entry.prep!);
-    return chosen.length;
-  };
-  const emit = (cand: Candidate, prep: Ready) => {
-    const px: number = prep.ctx.scale.pixelsPerCanvasUnit;
-    const canvasRegion = { x: cand.u / px, y: cand.v / px, w: size / px, h: size / px };
+  for (const pick of plan.picks) {
+    const prep = ready.get(pick.key)!;
+    const px = prep.ctx.scale.pixelsPerCanvasUnit;
+    const canvasRegion = { x: pick.u / px, y: pick.v / px, w: size / px, h: size / px };
     const crop = planCrop({ service: prep.ctx.service, placement: prep.placement, scale: px, canvasRect: canvasRegion, format: recipe.request.format, quality: recipe.request.quality });
     addCrop(crop, prep.ctx);
-    const c = canvases.byCanvasKey(cand.canvasId)!;
-    let group = groupOfCanvas(cand.canvasId);
+    const c = canvases.byCanvasKey(pick.key)!;
+    let group = groupOfCanvas(pick.key);
     let annotationId: string | undefined;
     if (recipe.split.groupBy === 'annotation') {
-      // The nearest labelled region's annotation on this canvas (centre distance, ties by key).
-      const cx = cand.u / px + size / px / 2, cy = cand.v / px + size / px / 2;
-      let best: Region | undefined;
-      let bestD = Infinity;
-      for (const r of regionsByCanvas.get(cand.canvasId) ?? []) {
-        const d = Math.hypot(r.bounds.x + r.bounds.w / 2 - cx, r.bounds.y + r.bounds.h / 2 - cy);
-        if (d < bestD) {
-          best = r;
-          bestD = d;
-        }
-      }
+      const best = nearestRegion(regionsByCanvas.get(pick.key) ?? [], canvasRegion);
       if (best) {
         group = groupOf(best, 'annotation');
         annotationId = best.annotationId;
@@ -379,38 +307,35 @@ function planNegatives(
     }
     patches.push({
       // Canvas ids alone are kept in the id so datasets stay stable; a canvas id shared by manifests adds the manifest.
-      id: stableId(['negative', canvases.isShared(c.canvas.id) ? cand.canvasId : c.canvas.id, px, cand.u, cand.v, size]),
-      label,
+      id: stableId(['negative', canvases.isShared(c.canvas.id) ? pick.key : c.canvas.id, px, pick.u, pick.v, size]),
+      label: recipe.negatives.label,
       kind: 'negative',
       group,
       manifestId: c.manifest.id,
       canvasId: c.canvas.id,
       ...(annotationId ? { annotationId } : {}),
       cropKey: crop.key,
-      inCrop: { x: cand.u - crop.outputBox.x, y: cand.v - crop.outputBox.y, w: size, h: size },
+      inCrop: { x: pick.u - crop.outputBox.x, y: pick.v - crop.outputBox.y, w: size, h: size },
       canvasRegion: tidyRect(canvasRegion),
       imageRegion: tidyRect(canvasToImage(prep.placement, canvasRegion)),
       coverage: 0,
     });
-    planned++;
-  };
+  }
+  const { picks: _picks, ...counts } = plan;
+  return counts;
+}
 
-  const shortBy = new Map<string, number>();
-  canvasIds.forEach((id, i) => {
-    const got = take(id, quota[i]);
-    if (got < quota[i]) shortBy.set(id, quota[i] - got);
-  });
-  // Borrow within the group: other canvases of the same group with spare candidates.
-  for (const [id, missing] of [...shortBy.entries()].sort((a, b) => byString(a[0], b[0]))) {
-    let need = missing;
-    const g = groupOfCanvas(id);
-    for (const other of canvasIds) {
-      if (need === 0) break;
-      if (other === id || groupOfCanvas(other) !== g) continue;
-      const got = take(other, need);
-      need -= got;
-      borrowed += got;
+/** The region whose centre is nearest the box's centre (ties: the first in input order). */
+function nearestRegion(regions: readonly Region[], box: Rect): Region | undefined {
+  const cx = box.x + box.w / 2, cy = box.y + box.h / 2;
+  let best: Region | undefined;
+  let bestD = Infinity;
+  for (const r of regions) {
+    const d = Math.hypot(r.bounds.x + r.bounds.w / 2 - cx, r.bounds.y + r.bounds.h / 2 - cy);
+    if (d < bestD) {
+      best = r;
+      bestD = d;
     }
   }
-  return { wanted, planned, borrowedWithinGroup: borrowed, shortfall: wanted - planned };
+  return best;
 }
