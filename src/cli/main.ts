@@ -90,6 +90,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       await mkdir(folder, { recursive: true });
       const file = join(folder, 'recipe.json');
       if (!o.force && (await access(file).then(() => true, () => false))) throw new UsageError(`${file} exists; use --force to overwrite it`);
+      const { networkDefaults } = await import('../recipe/schema.ts');
       const starter = {
         name: 'my-materials',
         description: 'What this dataset is for, in a sentence or two.',
@@ -102,7 +103,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
         split: { fractions: { train: 0.8, val: 0.1, test: 0.1 }, groupBy: 'canvas' },
         dedupe: { maxDistance: 4 },
         request: { format: 'png' },
-        network: { contact: 'mailto:you@example.org', concurrency: 4, perHost: 2, perHostRate: 2, timeoutMs: 30000, retries: 4 },
+        network: { contact: 'mailto:you@example.org', ...networkDefaults() },
       };
       await writeFile(file, `${JSON.stringify(starter, null, 2)}\n`);
       const { recipeReferenceMarkdown } = await import('../recipe/schema-doc.ts');

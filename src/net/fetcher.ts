@@ -8,6 +8,7 @@ import { checkContent } from './content-check.ts';
 import { HostGate } from './host-gate.ts';
 import { lockedEntry, LockFile } from './lock.ts';
 import { decideRetry, RetryPolicy, DEFAULT_RETRY_POLICY } from './retry-policy.ts';
+import { networkDefaults } from '../recipe/schema.ts';
 import { VERSION } from '../version.ts';
 
 export type FetchKind = 'json' | 'image';
@@ -72,11 +73,11 @@ export interface FetchStats {
   retries: number;
 }
 
+const { retries: _retries, ...networkDefault } = networkDefaults();
+
+/** Defaults for a fetcher made without a recipe: the politeness values come from the recipe schema's defaults. */
 export const DEFAULT_FETCHER_OPTIONS = {
-  concurrency: 4,
-  perHost: 2,
-  perHostRate: 4,
-  timeoutMs: 30_000,
+  ...networkDefault,
   maxBytes: { json: 20 * 1024 * 1024, image: 200 * 1024 * 1024 },
   maxRedirects: 5,
 } as const;
@@ -110,7 +111,8 @@ export class Fetcher {
       retry: DEFAULT_RETRY_POLICY,
       now: Date.now,
       sleep: sleepReal,
-      warn: (m) => process.stderr.write(`warning: ${m}\n`),
+      // The library never writes to stderr by itself: warnings reach whoever passes `warn` (the CLI does).
+      warn: () => {},
       ...options,
     } as FetcherOptions;
     this.gate = new HostGate({ perHost: this.options.perHost, ratePerSecond: this.options.perHostRate, now: this.options.now, sleep: this.options.sleep });

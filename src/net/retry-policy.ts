@@ -1,3 +1,4 @@
+import { networkDefaults } from '../recipe/schema.ts';
 import { seededUnit } from '../util/hash.ts';
 
 /** Statuses worth another try (RFC 9110 semantics; 429 from RFC 6585). */
@@ -21,7 +22,7 @@ export interface RetryPolicy {
   seed: string;
 }
 
-export const DEFAULT_RETRY_POLICY: RetryPolicy = { retries: 4, baseDelayMs: 500, maxDelayMs: 30_000, maxRetryAfterMs: 120_000, seed: 'swatchbook' };
+export const DEFAULT_RETRY_POLICY: RetryPolicy = { retries: networkDefaults().retries, baseDelayMs: 500, maxDelayMs: 30_000, maxRetryAfterMs: 120_000, seed: 'swatchbook' };
 
 /**
  * Parses `Retry-After` in both its forms (RFC 9110 §10.2.3): delay-seconds, or an

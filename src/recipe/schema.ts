@@ -129,3 +129,9 @@ export const recipeSchema = {
     output: { type: 'string', minLength: 1, description: 'Dataset folder (default `<name>-dataset` beside the recipe).' },
   },
 } as const;
+
+/** The schema's defaults for `network`: the one place runtime politeness defaults come from. */
+export function networkDefaults(): { concurrency: number; perHost: number; perHostRate: number; timeoutMs: number; retries: number } {
+  const p = recipeSchema.properties.network.properties;
+  return { concurrency: p.concurrency.default!, perHost: p.perHost.default!, perHostRate: p.perHostRate.default, timeoutMs: p.timeoutMs.default!, retries: p.retries.default };
+}

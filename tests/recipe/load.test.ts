@@ -52,3 +52,18 @@ describe('broken recipes: one clear message with the JSON location', () => {
     expect(err.message).toMatch(re);
   });
 });
+
+describe('runtime defaults come only from the schema', () => {
+  it('the fetcher, the retry policy and a normalised recipe agree with the schema defaults', async () => {
+    const { networkDefaults } = await import('../../src/recipe/schema.ts');
+    const { DEFAULT_FETCHER_OPTIONS } = await import('../../src/net/fetcher.ts');
+    const { DEFAULT_RETRY_POLICY } = await import('../../src/net/retry-policy.ts');
+    const { normaliseRecipe } = await import('../../src/recipe/load.ts');
+    const d = networkDefaults();
+    expect(d).toEqual({ concurrency: 4, perHost: 2, perHostRate: 4, timeoutMs: 30000, retries: 4 });
+    expect(DEFAULT_FETCHER_OPTIONS).toMatchObject({ concurrency: d.concurrency, perHost: d.perHost, perHostRate: d.perHostRate, timeoutMs: d.timeoutMs });
+    expect(DEFAULT_RETRY_POLICY.retries).toBe(d.retries);
+    const r = normaliseRecipe({ name: 'd', sources: [{ manifest: 'm' }], labels: { a: [] }, scale: { pixelsPerCanvasUnit: 1 } }, '/r/recipe.json', '/r');
+    expect(r.network).toMatchObject(d);
+  });
+});
