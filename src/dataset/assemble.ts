@@ -83,7 +83,7 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
 
   const records: IndexRecord[] = kept.map((p) => {
     const crop = cropByKey.get(p.cropKey)!;
-    const ctx = plan.contexts.get(p.cropKey)!;
+    const ctx = plan.contexts[p.cropKey]!;
     const cut = cuts.get(p.id)!;
     const split = assignment.byGroup.get(groupOf(p))!;
     return {

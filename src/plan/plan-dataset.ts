@@ -69,7 +69,8 @@ export interface PlanSkip {
 export interface DatasetPlan {
   crops: CropRequest[];
   patches: PatchPlan[];
-  contexts: Map<string, CropContext>;
+  /** Where each crop comes from, by crop key (a plain object: the plan serialises as JSON). */
+  contexts: Record<string, CropContext>;
   regions: Region[];
   skipped: PlanSkip[];
   negatives: { wanted: number; planned: number; borrowedWithinGroup: number; shortfall: number };
@@ -241,7 +242,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
   return {
     crops: [...crops.values()].sort((a, b) => byString(a.key, b.key)),
     patches,
-    contexts,
+    contexts: Object.fromEntries([...contexts.entries()].sort((a, b) => byString(a[0], b[0]))),
     regions,
     skipped,
     negatives,

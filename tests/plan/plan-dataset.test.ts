@@ -55,6 +55,13 @@ describe('planning a dataset (pure)', () => {
     const plan = planDataset(recipe('canvas'), sources([...annotations, anno('tiny', 'oak', [rect(2, 700, 50, 40, 40)])]));
     expect(plan.skipped).toEqual([{ key: `${B}/anno/tiny`, reason: 'too-small-for-a-patch', detail: 'the region is 20×20 px at this scale, smaller than one 32-px patch on the grid' }]);
   });
+  it('the plan is plain JSON: it survives serialisation unchanged (what sharding needs)', () => {
+    const plan = planDataset(recipe('annotation'), sources(annotations));
+    const text = JSON.stringify(plan);
+    expect(JSON.parse(text)).toEqual(plan);
+    expect(text).not.toMatch(/\{\}/); // no Map or Set flattened into an empty object
+    expect(Object.keys(plan.contexts)).toEqual(plan.crops.map((c) => c.key));
+  });
   it('negative positions do not depend on input order', () => {
     const a = planDataset(recipe('canvas'), sources(annotations));
     const b = planDataset(recipe('canvas'), sources([...annotations].reverse()));

@@ -42,7 +42,7 @@ describe('real-world Presentation 3.0 shapes', () => {
     const C = `${B}/canvas/1`;
     const m = manifestDoc(`${B}/m`, [canvasDoc(C, [painting(C, 1, C), painting(C, 2, `${C}#xywh=400,0,400,300`, { width: 400, height: 300 })])]);
     const plan = planDataset(recipe(), sourcesOf([m], [boxAnno('inset', 'oak', C, '450,50,300,200'), boxAnno('ground', 'marble', C, '50,350,300,200')], services([1], [2, 400, 300])));
-    const serviceOf = (annotation: string) => new Set(plan.patches.filter((p) => p.annotationId === `${B}/anno/${annotation}`).map((p) => plan.contexts.get(p.cropKey)!.service.id));
+    const serviceOf = (annotation: string) => new Set(plan.patches.filter((p) => p.annotationId === `${B}/anno/${annotation}`).map((p) => plan.contexts[p.cropKey]!.service.id));
     expect(serviceOf('inset')).toEqual(new Set([`${B}/iiif/2`]));
     expect(serviceOf('ground')).toEqual(new Set([`${B}/iiif/1`]));
     // and the inset's crop is in the inset image's own pixels: canvas x 450 → image x 50
@@ -50,7 +50,7 @@ describe('real-world Presentation 3.0 shapes', () => {
     expect(insetCrop.stitch.pieces[0].url.startsWith(`${B}/iiif/2/50,50,300,200/`)).toBe(true);
     // negatives never sit on the inset image where it covers the ground image's area, nor on the other way round
     for (const n of plan.patches.filter((p) => p.kind === 'negative')) {
-      const svc = plan.contexts.get(n.cropKey)!.service.id;
+      const svc = plan.contexts[n.cropKey]!.service.id;
       if (svc === `${B}/iiif/1`) expect(intersects(n.canvasRegion, { x: 400, y: 0, w: 400, h: 300 })).toBe(false);
     }
   });
@@ -96,7 +96,7 @@ describe('real-world Presentation 3.0 shapes', () => {
     const mA = manifestDoc(`${B}/mA`, [canvasDoc(C, [painting(C, 1, C)])]);
     const mB = manifestDoc(`${B}/mB`, [canvasDoc(C, [painting(C, 2, C)])]);
     const plan = planDataset(recipe(), sourcesOf([mA, mB], [boxAnno('onA', 'oak', C, '0,0,200,200', `${B}/mA`), boxAnno('onB', 'marble', C, '0,0,200,200', `${B}/mB`)], services([1], [2])));
-    const of = (id: string) => new Set(plan.patches.filter((p) => p.annotationId === `${B}/anno/${id}`).map((p) => `${p.manifestId} ${plan.contexts.get(p.cropKey)!.service.id}`));
+    const of = (id: string) => new Set(plan.patches.filter((p) => p.annotationId === `${B}/anno/${id}`).map((p) => `${p.manifestId} ${plan.contexts[p.cropKey]!.service.id}`));
     expect(of('onA')).toEqual(new Set([`${B}/mA ${B}/iiif/1`]));
     expect(of('onB')).toEqual(new Set([`${B}/mB ${B}/iiif/2`]));
     // resolving the two manifests from files records the shared id as a note for the card
