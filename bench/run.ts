@@ -20,6 +20,7 @@ import { encodePng, extractRgb } from '../src/image/pixels.ts';
 import { dHash } from '../src/patch/dhash.ts';
 import { sha256Hex } from '../src/util/hash.ts';
 import { startProcessorServer, startStaticServer, truthImage } from './servers.ts';
+import { processBenchmarks } from './process.ts';
 
 const RUNS = Number(process.env.RUNS ?? 5);
 const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)];
@@ -157,6 +158,9 @@ const rows: [string, string, string][] = [];
   rows.push(['planning 10,000 ÷ 1,000 canvases: time', median(t).toFixed(2), '≤ 11'])
   rows.push(['planning 10,000 ÷ 1,000 canvases: peak RSS', median(m).toFixed(2), '≤ 1.5']);
 }
+
+// 6. whole processes of the compiled command: start-up, and harvest (start-up included) ÷ a bare fetch process.
+rows.push(...(await processBenchmarks()));
 
 await proc.stop();
 await stat.stop();

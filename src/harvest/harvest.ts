@@ -4,7 +4,7 @@ export type { FailureRecord } from '../errors.ts';
 import type { Fetcher, Fetched } from '../net/fetcher.ts';
 import type { CropRequest, Piece } from '../plan/crop-request.ts';
 import { byString } from '../util/hash.ts';
-import { imageSize } from '../image/pixels.ts';
+import { imageSize } from '../image/image-size.ts';
 
 
 export interface PieceOutcome {

@@ -1,22 +1,11 @@
 import sharp from 'sharp';
-import { ImageError } from '../errors.ts';
+import { DEFAULT_PIXEL_LIMIT } from './image-size.ts';
 
 /** Decoded pixels: 3-channel sRGB, row-major, 8 bits per channel. */
 export interface RgbImage {
   width: number;
   height: number;
   data: Buffer;
-}
-
-/** The largest image we decode (pixels); larger ones are refused as possible decompression bombs. */
-export const DEFAULT_PIXEL_LIMIT = 100_000_000;
-
-/** Reads width and height from the header only (no full decode). */
-export async function imageSize(body: Buffer, pixelLimit = DEFAULT_PIXEL_LIMIT): Promise<{ width: number; height: number; format: string }> {
-  const meta = await sharp(body, { limitInputPixels: pixelLimit }).metadata();
-  if (!meta.width || !meta.height) throw new ImageError('the image has no readable size');
-  if (meta.width * meta.height > pixelLimit) throw new ImageError(`the image claims ${meta.width}×${meta.height} pixels, more than the ${pixelLimit}-pixel limit`);
-  return { width: meta.width, height: meta.height, format: meta.format ?? 'unknown' };
 }
 
 /**

@@ -1,6 +1,9 @@
-import { mkdir, open, rename, rm } from 'node:fs/promises';
+import { mkdir, open, rename, rm, writeFile } from 'node:fs/promises';
 import { dirname, join } from 'node:path';
 import { randomBytes } from 'node:crypto';
+
+/** Folders this process has made or seen: a cache write then costs no `mkdir` (content-addressed stores write thousands). */
+const knownDirs = new Set<string>();
 
 /**
  * Writes a file so that readers see either the old content or the whole new
@@ -11,14 +14,27 @@ import { randomBytes } from 'node:crypto';
  */
 export async function writeFileAtomic(path: string, data: Uint8Array | string, durable = false): Promise<void> {
   const dir = dirname(path);
-  await mkdir(dir, { recursive: true });
+  if (!knownDirs.has(dir)) {
+    await mkdir(dir, { recursive: true });
+    knownDirs.add(dir);
+  }
   const tmp = join(dir, `.tmp-${process.pid}-${randomBytes(6).toString('hex')}`);
-  const fh = await open(tmp, 'w');
   try {
-    await fh.writeFile(data);
-    if (durable) await fh.sync();
-  } finally {
-    await fh.close();
+    if (durable) {
+      const fh = await open(tmp, 'w');
+      try {
+        await fh.writeFile(data);
+        await fh.sync();
+      } finally {
+        await fh.close();
+      }
+    } else {
+      await writeFile(tmp, data);
+    }
+  } catch (err) {
+    // The folder may have been removed under us (a cache cleared while the process runs): make it again once.
+    if ((err as NodeJS.ErrnoException).code !== 'ENOENT' || !knownDirs.delete(dir)) throw err;
+    return writeFileAtomic(path, data, durable);
   }
   try {
     await rename(tmp, path);

@@ -20,7 +20,24 @@ export interface ResponseFacts {
  * verified, and a corrupt body is deleted and reported as missing.
  */
 export class ContentCache {
+  /**
+   * Names of the ref files in each `refs/<xx>/` folder, listed once per folder: a lookup
+   * for a URL this cache has never seen then costs no file open (a fresh harvest asks once
+   * per request). Refs written later by this process are added; another process's new refs
+   * are seen by the next process (at worst a piece is fetched again, never a wrong body).
+   */
+  private readonly refNames = new Map<string, Promise<Set<string>>>();
+
   constructor(readonly dir: string) {}
+
+  private refsIn(prefix: string): Promise<Set<string>> {
+    let names = this.refNames.get(prefix);
+    if (!names) {
+      names = readdir(join(this.dir, 'refs', prefix)).then((list) => new Set(list), () => new Set<string>());
+      this.refNames.set(prefix, names);
+    }
+    return names;
+  }
 
   private objectPath(sha: string): string {
     return join(this.dir, 'objects', sha.slice(0, 2), sha);
@@ -52,10 +69,14 @@ export class ContentCache {
   }
 
   async putRef(facts: ResponseFacts): Promise<void> {
+    const h = sha256Hex(facts.url);
     await writeFileAtomic(this.refPath(facts.url), `${JSON.stringify(facts)}\n`);
+    (await this.refsIn(h.slice(0, 2))).add(`${h}.json`);
   }
 
   async getRef(url: string): Promise<ResponseFacts | undefined> {
+    const h = sha256Hex(url);
+    if (!(await this.refsIn(h.slice(0, 2))).has(`${h}.json`)) return undefined;
     try {
       const parsed = JSON.parse(await readFile(this.refPath(url), 'utf8')) as ResponseFacts;
       return parsed.url === url && typeof parsed.sha256 === 'string' ? parsed : undefined;
