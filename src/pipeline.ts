@@ -130,7 +130,7 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
     });
     const tool = toolVersions();
     const data = assembleDataset({ recipe, sources, plan, served: harvest.served, harvestFailures: harvest.failures, cuts: cut.cuts, cutFailures: cut.failures, resampledPieces: cut.resampledPieces, tool });
-    await writeDataset(tx, staging, data, serialiseLock(lock), recipe.name, tool);
+    await writeDataset(tx, staging, data, serialiseLock(lock), recipe, tool);
     await tx.commit();
     build = {
       patches: data.records.length,

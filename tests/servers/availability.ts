@@ -15,3 +15,13 @@ export function iipAvailable(): boolean {
   if (!have) console.warn('skipping the iipsrv tests: apt-get install -y iipimage-server lighttpd libvips-tools to run them');
   return have;
 }
+
+/** Debian's Python with torchvision (the reference loader). Required in CI like the image servers. */
+export function torchvisionAvailable(): boolean {
+  const have = spawnSync('/usr/bin/python3', ['-c', 'import torchvision'], { encoding: 'utf8' }).status === 0;
+  if (!have && process.env.SWATCHBOOK_REQUIRE_SERVERS) {
+    throw new Error('SWATCHBOOK_REQUIRE_SERVERS is set but /usr/bin/python3 cannot import torchvision (apt-get install -y python3-torchvision)');
+  }
+  if (!have) console.warn('skipping the torchvision loader test: apt-get install -y python3-torchvision to run it');
+  return have;
+}
