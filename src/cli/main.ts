@@ -23,6 +23,7 @@ interface Shared {
   quiet?: boolean;
   debug?: boolean;
   strict?: boolean;
+  format?: string;
 }
 
 function shared(cmd: Command): Command {
@@ -32,6 +33,7 @@ function shared(cmd: Command): Command {
     .option('--concurrency <n>', 'requests in flight in all (overrides network.concurrency)')
     .option('--offline', 'use the cache only; never contact a server')
     .option('--frozen', 'allow only requests in the lock file, and only bodies with the locked hashes')
+    .option('--format <layout>', 'folder (class folders, the default) or tar (also WebDataset-style tar shards; the recipe\'s shards.patchesPerShard sets their size)')
     .option('--strict', 'treat a problem in a document from someone else\'s server (a bad annotation, an unreadable document, a collection cycle, a refused address) as fatal (exit 2) instead of a failure record')
     .option('--json', 'print a machine-readable summary on stdout')
     .option('--quiet', 'print nothing but errors')
@@ -45,7 +47,13 @@ function modeOf(o: Shared): FetchMode {
 
 async function recipeWith(path: string, o: Shared): Promise<Recipe> {
   const { loadRecipe } = await import('../recipe/load.ts');
-  const r = await loadRecipe(path);
+  let r = await loadRecipe(path);
+  if (o.format !== undefined && o.format !== 'folder' && o.format !== 'tar') throw new UsageError(`--format must be folder or tar, got ${JSON.stringify(o.format)}`);
+  if (o.format === 'tar' && !r.shards) r = { ...r, shards: { patchesPerShard: 1000 } };
+  if (o.format === 'folder' && r.shards) {
+    const { shards: _shards, ...rest } = r;
+    r = rest;
+  }
   return o.out ? { ...r, output: resolve(o.out) } : r;
 }
 

@@ -87,11 +87,11 @@ export interface CroissantInput {
   description: string;
   records: readonly IndexRecord[];
   /** Text files of the dataset by relative path (index.jsonl, the metadata files, card.json…), to list with their sha256. */
-  files: ReadonlyMap<string, string>;
+  files: ReadonlyMap<string, string | Buffer>;
   contact?: string;
 }
 
-const MIME: Record<string, string> = { '.jsonl': 'application/jsonlines', '.json': 'application/json', '.md': 'text/markdown', '.txt': 'text/plain', '.jsonld': 'application/ld+json' };
+const MIME: Record<string, string> = { '.tar': 'application/x-tar', '.jsonl': 'application/jsonlines', '.json': 'application/json', '.md': 'text/markdown', '.txt': 'text/plain', '.jsonld': 'application/ld+json' };
 
 /**
  * The Croissant 1.0 description. Deterministic: no date of publication is

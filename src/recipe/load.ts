@@ -126,6 +126,7 @@ export function normaliseRecipe(doc: unknown, file: string, baseDir: string): Re
     request: r.request,
     network: r.network,
     rights: r.rights,
+    ...(r.shards ? { shards: r.shards } : {}),
     output: where(r.output ?? `${r.name}-dataset`),
   };
 }

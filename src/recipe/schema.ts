@@ -126,6 +126,12 @@ export const recipeSchema = {
       description: 'Rights filter.',
       properties: { allow: { type: 'array', items: { type: 'string', minLength: 1 }, description: 'Rights URIs or prefixes accepted; sources with other or no rights are excluded and counted in the card.' } },
     },
+    shards: {
+      type: 'object',
+      additionalProperties: false,
+      description: 'Also write WebDataset-style tar shards (`shards/<split>/<split>-NNNNN.tar`, `<id>.png` beside `<id>.json` per patch, byte-deterministic). Absent: no shards (`--format tar` on the command line asks for them too).',
+      properties: { patchesPerShard: positiveInt('Patches per shard.', 1000, 1000000) },
+    },
     output: { type: 'string', minLength: 1, description: 'Dataset folder (default `<name>-dataset` beside the recipe).' },
   },
 } as const;

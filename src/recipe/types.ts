@@ -24,5 +24,7 @@ export interface Recipe {
   request: { format: 'jpg' | 'png'; quality: 'default' | 'color' };
   network: { contact?: string; concurrency: number; perHost: number; perHostRate: number; timeoutMs: number; retries: number; allowHosts?: string[] };
   rights: { allow?: string[] };
+  /** WebDataset-style tar shards beside the folders, when asked for. */
+  shards?: { patchesPerShard: number };
   output: string;
 }

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { execFileSync } from 'node:child_process';
 import { readdir, readFile, stat } from 'node:fs/promises';
 import { join } from 'node:path';
-import { runRecipe } from '../../src/pipeline.ts';
+import { hashTree, runRecipe } from '../../src/pipeline.ts';
 import { parseIndex } from '../../src/dataset/records.ts';
 import { CROISSANT_CONTEXT } from '../../src/dataset/loader-files.ts';
 import { sha256Hex } from '../../src/util/hash.ts';
@@ -12,9 +12,9 @@ import { torchvisionAvailable } from '../servers/availability.ts';
 
 const box = nockSandbox();
 
-async function built() {
+async function built(overrides: Record<string, unknown> = {}) {
   serveScenario(scenarioBoards());
-  const recipe = await scenarioRecipe(box.dir);
+  const recipe = await scenarioRecipe(box.dir, overrides);
   await runRecipe(recipe, { cacheDir: join(box.dir, 'cache') });
   return { out: recipe.output, records: parseIndex(await readFile(join(recipe.output, 'index.jsonl'), 'utf8')) };
 }
@@ -111,5 +111,50 @@ describe('datasets every loader reads', () => {
       expect(got[split].counts).toEqual(Object.fromEntries(classes.map((c) => [c, inSplit.filter((r) => r.label === c).length])));
       expect(got[split].size).toEqual([32, 32]);
     }
+  }, 120_000);
+
+  it('tar shards: WebDataset-style, read back by Python\'s tarfile, equal to the index, byte-identical on a rebuild', async () => {
+    const { out, records } = await built({ shards: { patchesPerShard: 10 } });
+    // Python's tarfile is the independent reader; WebDataset groups consecutive members by the key before the first dot (facts E2)
+    const script = [
+      'import hashlib, json, sys, tarfile, glob, os',
+      'res = {}',
+      "for path in sorted(glob.glob(os.path.join(sys.argv[1], 'shards', '*', '*.tar'))):",
+      '    with tarfile.open(path) as t:',
+      '        members = t.getmembers()',
+      "        res[os.path.relpath(path, sys.argv[1])] = [[m.name, m.size, m.mtime, m.uid, m.gid, m.mode, m.isfile(), hashlib.sha256(t.extractfile(m).read()).hexdigest(), json.loads(t.extractfile(m).read()) if m.name.endswith('.json') else None] for m in members]",
+      'print(json.dumps(res))',
+    ].join('\n');
+    const shards: Record<string, [string, number, number, number, number, number, boolean, string, unknown][]> = JSON.parse(execFileSync('/usr/bin/python3', ['-c', script, out], { encoding: 'utf8' }));
+    const seen: string[] = [];
+    for (const [path, members] of Object.entries(shards)) {
+      const split = path.split('/')[1];
+      expect(members.length).toBeLessThanOrEqual(20); // 10 patches, two members each
+      for (let i = 0; i < members.length; i += 2) {
+        const [png, json] = [members[i], members[i + 1]];
+        const key = png[0].replace(/\.png$/, '');
+        expect(json[0]).toBe(`${key}.json`); // one sample = consecutive members with one key
+        for (const m of [png, json]) expect(m.slice(2, 7)).toEqual([0, 0, 0, 0o644, true]);
+        const r = records.find((x) => x.id === key)!;
+        expect(r.split).toBe(split);
+        expect(png[7]).toBe(r.sha256);
+        expect(json[8]).toEqual(JSON.parse(JSON.stringify(r)));
+        seen.push(key);
+      }
+    }
+    expect(seen.sort()).toEqual(records.map((r) => r.id).sort());
+    // the shards are listed in croissant.json with their sha256
+    const doc = JSON.parse(await readFile(join(out, 'croissant.json'), 'utf8'));
+    for (const path of Object.keys(shards)) {
+      const entry = doc.distribution.find((d: { '@id': string }) => d['@id'] === path);
+      expect(entry.encodingFormat).toBe('application/x-tar');
+      expect(entry.sha256).toBe(sha256Hex(await readFile(join(out, path))));
+    }
+    // a rebuild from the cache writes the same bytes
+    const before = await hashTree(out);
+    serveScenario(scenarioBoards());
+    const again = await scenarioRecipe(box.dir, { shards: { patchesPerShard: 10 }, output: 'out-again' });
+    await runRecipe(again, { cacheDir: join(box.dir, 'cache'), mode: 'offline' });
+    expect([...(await hashTree(again.output)).entries()]).toEqual([...before.entries()]);
   }, 120_000);
 });
