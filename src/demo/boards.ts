@@ -59,14 +59,8 @@ export function demoBoards(): Board[] {
     const n = 2 + Math.floor(r(3) * 2);
     const cellW = Math.floor(width / 2), cellH = Math.floor(height / 2);
     for (let k = 0; k < n; k++) {
-      const cx = (k % 2) * cellW, cy = Math.floor(k / 2) * cellH;
-      const pad = 30 + Math.floor(r(10 + k) * 20);
-      const x0 = cx + pad, y0 = cy + pad, x1 = cx + cellW - pad, y1 = cy + cellH - pad;
       const material = MATERIALS[(i + k) % 3];
-      const polygon = r(20 + k) < 0.4;
-      const shape: Shape = polygon
-        ? { kind: 'polygon', rings: [[{ x: x0, y: y1 }, { x: x0 + (x1 - x0) * 0.15, y: y0 }, { x: x1, y: y0 + (y1 - y0) * 0.1 }, { x: x1 - (x1 - x0) * 0.1, y: y1 }] as Point[]] }
-        : { kind: 'rect', rect: { x: x0, y: y0, w: x1 - x0, h: y1 - y0 } };
+      const shape = sampleShape(cellW, cellH, k, 30 + Math.floor(r(10 + k) * 20), r(20 + k) < 0.4 ? { lean: 0.15, drop: 0.1 } : undefined);
       regions.push({ material, shape, annotator: (i + k) % 2 === 0 ? 'annotator-a' : 'annotator-b' });
     }
     boards.push({
@@ -108,12 +102,7 @@ function secondArchiveBoards(): Board[] {
     const cellW = Math.floor(width / 2), cellH = Math.floor(height / 2);
     const regions: BoardRegion[] = [];
     for (let k = 0; k < 3; k++) {
-      const cx = (k % 2) * cellW, cy = Math.floor(k / 2) * cellH;
-      const pad = 30 + Math.floor(r(10 + k) * 20);
-      const x0 = cx + pad, y0 = cy + pad, x1 = cx + cellW - pad, y1 = cy + cellH - pad;
-      const shape: Shape = k === 1
-        ? { kind: 'polygon', rings: [[{ x: x0, y: y1 }, { x: x0 + (x1 - x0) * 0.2, y: y0 }, { x: x1, y: y0 }, { x: x1 - (x1 - x0) * 0.1, y: y1 }] as Point[]] }
-        : { kind: 'rect', rect: { x: x0, y: y0, w: x1 - x0, h: y1 - y0 } };
+      const shape = sampleShape(cellW, cellH, k, 30 + Math.floor(r(10 + k) * 20), k === 1 ? { lean: 0.2, drop: 0 } : undefined);
       regions.push({ material: MATERIALS[(j + k) % 3], shape, annotator: (j + k) % 2 === 0 ? 'annotator-a' : 'annotator-b' });
     }
     out.push({
@@ -130,6 +119,19 @@ function secondArchiveBoards(): Board[] {
     });
   }
   return out;
+}
+
+/**
+ * The k-th painted sample of a board: the k-th cell of a 2-column grid of
+ * `cellW`×`cellH` cells, inset by `pad`; a rectangle, or a slanted quadrilateral
+ * whose top-left corner leans in by `lean` and whose top-right drops by `drop` (shares of the cell).
+ */
+function sampleShape(cellW: number, cellH: number, k: number, pad: number, polygon?: { lean: number; drop: number }): Shape {
+  const cx = (k % 2) * cellW, cy = Math.floor(k / 2) * cellH;
+  const x0 = cx + pad, y0 = cy + pad, x1 = cx + cellW - pad, y1 = cy + cellH - pad;
+  if (!polygon) return { kind: 'rect', rect: { x: x0, y: y0, w: x1 - x0, h: y1 - y0 } };
+  const ring: Point[] = [{ x: x0, y: y1 }, { x: x0 + (x1 - x0) * polygon.lean, y: y0 }, { x: x1, y: y0 + (y1 - y0) * polygon.drop }, { x: x1 - (x1 - x0) * 0.1, y: y1 }];
+  return { kind: 'polygon', rings: [ring] };
 }
 
 /** Paints a board: ground, then each region's material inside its shape. */
