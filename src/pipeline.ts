@@ -1,6 +1,7 @@
 import { mkdir, readdir, readFile, appendFile, rm } from 'node:fs/promises';
 import { dirname, join, relative } from 'node:path';
-import { FetchError, UsageError } from './errors.ts';
+import { FetchError, InputError, UsageError } from './errors.ts';
+import { SPLITS, type SplitName } from './split/assign.ts';
 import { ContentCache } from './net/cache.ts';
 import { Fetcher, FetchEvent, FetchMode } from './net/fetcher.ts';
 import { lockFrom, readLock, writeLock, LockFile } from './net/lock.ts';
@@ -33,6 +34,8 @@ export interface RunOptions {
   onProgress?: (stage: 'fetch' | 'cut', done: number, total: number) => void;
   /** Crops stitched at once (CPU work). */
   cpuConcurrency?: number;
+  /** A previous index.jsonl whose groups keep their splits (`--keep-splits`). */
+  keepSplits?: string;
   /** Write `<name>.lock.json` beside the recipe (default true; verify does not). */
   writeLock?: boolean;
   /** Problems in documents from other servers are fatal (exit 2) instead of failure records. */
@@ -115,6 +118,7 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
     import('./dataset/tool-versions.ts'),
     import('./dataset/write-dataset.ts'),
   ]);
+  const previousSplits = opts.keepSplits ? await readPreviousSplits(opts.keepSplits) : undefined;
   const planned = await planRecipe(recipe, opts);
   const { plan, sources, fetcher } = planned;
   const harvest = await harvestCrops(plan.crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
@@ -129,7 +133,7 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
       onProgress: (d, t) => opts.onProgress?.('cut', d, t),
     });
     const tool = toolVersions();
-    const data = assembleDataset({ recipe, sources, plan, served: harvest.served, harvestFailures: harvest.failures, cuts: cut.cuts, cutFailures: cut.failures, resampledPieces: cut.resampledPieces, tool });
+    const data = assembleDataset({ recipe, sources, plan, served: harvest.served, harvestFailures: harvest.failures, cuts: cut.cuts, cutFailures: cut.failures, resampledPieces: cut.resampledPieces, tool, ...(previousSplits ? { previousSplits } : {}) });
     await writeDataset(tx, staging, data, serialiseLock(lock), recipe, tool);
     await tx.commit();
     build = {
@@ -149,6 +153,29 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
   if ((opts.mode ?? 'online') !== 'frozen' && opts.writeLock !== false) await writeLock(lockPathFor(recipe), lock);
   await logRun(recipe, opts, 'build', build);
   return { ...planned, build };
+}
+
+/** The split of every group in a previous index.jsonl (the user's file: a problem is exit 2 with the line). */
+async function readPreviousSplits(path: string): Promise<Map<string, SplitName>> {
+  let text: string;
+  try {
+    text = await readFile(path, 'utf8');
+  } catch (err) {
+    throw new InputError('E_RECIPE_INVALID', path, '', `cannot read the previous index for --keep-splits (${(err as NodeJS.ErrnoException).code ?? (err as Error).message})`);
+  }
+  const out = new Map<string, SplitName>();
+  text.split('\n').forEach((line, n) => {
+    if (!line.trim()) return;
+    let r: { group?: unknown; split?: unknown };
+    try {
+      r = JSON.parse(line);
+    } catch {
+      throw new InputError('E_RECIPE_INVALID', path, `/${n}`, 'line is not JSON (expected the index.jsonl of a swatchbook dataset)');
+    }
+    if (typeof r.group !== 'string' || !SPLITS.includes(r.split as SplitName)) throw new InputError('E_RECIPE_INVALID', path, `/${n}`, 'expected a record with "group" and "split"');
+    if (!out.has(r.group)) out.set(r.group, r.split as SplitName);
+  });
+  return out;
 }
 
 /** Appends a line with wall-clock times to the run log in the cache (kept out of the hashed dataset). */

@@ -5,7 +5,7 @@ import type { PieceOutcome } from '../harvest/harvest.ts';
 import type { DatasetPlan, PatchPlan } from '../plan/plan-dataset.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ResolvedSources } from '../sources/resolve.ts';
-import { assignSplits, SPLITS } from '../split/assign.ts';
+import { assignSplits, SplitName, SPLITS } from '../split/assign.ts';
 import { mergeGroups, nearDuplicatePairs, NearDuplicatePair } from '../split/near-duplicates.ts';
 import { byString } from '../util/hash.ts';
 import { buildCard, Card } from './card.ts';
@@ -31,6 +31,8 @@ export interface AssembleInput {
   cutFailures: readonly FailureRecord[];
   resampledPieces: number;
   tool: ToolVersions;
+  /** Splits of groups in a previous index (`--keep-splits`): those groups keep them. */
+  previousSplits?: ReadonlyMap<string, SplitName>;
 }
 
 /** Everything the write stage writes, in its final order. */
@@ -78,7 +80,14 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
     c[p.label] = (c[p.label] ?? 0) + 1;
     classesByGroup.set(g, c);
   }
-  const assignment = assignSplits([...classesByGroup.entries()].map(([key, classes]) => ({ key, classes })), recipe.seed, recipe.split.fractions);
+  const assignment = assignSplits([...classesByGroup.entries()].map(([key, classes]) => ({ key, classes })), recipe.seed, recipe.split.fractions, i.previousSplits);
+  let previous: { groups: number; kept: number; changed: number; new: number } | undefined;
+  if (i.previousSplits) {
+    const groups = [...classesByGroup.keys()];
+    const known = groups.filter((g) => i.previousSplits!.has(g));
+    const changed = known.filter((g) => assignment.byGroup.get(g) !== i.previousSplits!.get(g)).length;
+    previous = { groups: i.previousSplits.size, kept: known.length - changed, changed, new: groups.length - known.length };
+  }
   const cropByKey = new Map(plan.crops.map((c) => [c.key, c]));
 
   const records: IndexRecord[] = kept.map((p) => {
@@ -134,6 +143,7 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
     sources: i.sources.documents.map((d) => ({ ...d, location: /^https?:/.test(d.location) ? redactUrl(d.location) : relative(dirname(recipe.file), d.location) })),
     tool: i.tool,
     droppedPatches: plan.patches.length - kept.length,
+    ...(previous ? { previousSplits: previous } : {}),
     resampledPieces: i.resampledPieces,
   });
   const perSplit = Object.fromEntries(SPLITS.map((s) => [s, records.filter((r) => r.split === s).length]));

@@ -22,6 +22,8 @@ export interface CardInputs {
   tool: { name: string; version: string; sharp: string; libvips: string; node: string };
   droppedPatches: number;
   resampledPieces: number;
+  /** Against a previous index (`--keep-splits`): its groups, how many kept their split, changed, and new groups. */
+  previousSplits?: { groups: number; kept: number; changed: number; new: number };
 }
 
 const count = <T>(items: readonly T[], key: (t: T) => string): Record<string, number> => {
@@ -85,6 +87,7 @@ export function buildCard(i: CardInputs) {
         rule: 'stable: each group goes where hash(seed, group) sends it; a class missing from a split is repaired by moving the fewest groups, and those moves are listed',
         moves: i.assignment.moves,
         unrepairable: i.assignment.unrepairable,
+        ...(i.previousSplits ? { previousIndex: i.previousSplits } : {}),
       },
       attributes: sortKeys(Object.fromEntries(Object.entries(attributes).map(([k, v]) => [k, sortKeys(v)]))),
       rightsExcluded: i.plan.rightsExcluded,
@@ -158,6 +161,8 @@ export function renderCardMarkdown(card: Card): string {
   lines.push(`Split policy: ${c.splitPolicy.rule}.`);
   if (c.splitPolicy.moves.length) for (const m of c.splitPolicy.moves) lines.push(`- moved ${m.group} from ${m.from} to ${m.to}: ${m.because}`);
   if (c.splitPolicy.unrepairable.length) for (const u of c.splitPolicy.unrepairable) lines.push(`- class ${u.label} has ${u.groups} group(s), too few for every split; absent from ${u.missing.join(', ')} (stability kept)`);
+  const prev = (c.splitPolicy as { previousIndex?: { groups: number; kept: number; changed: number; new: number } }).previousIndex;
+  if (prev) lines.push(`- kept the splits of a previous index (${prev.groups} group(s)): ${prev.kept} kept their split, ${prev.changed} changed, ${prev.new} new group(s) placed by the rule`);
   lines.push('');
   if (c.rightsExcluded.length) {
     lines.push('Excluded by the rights filter:', '');

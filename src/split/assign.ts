@@ -21,6 +21,8 @@ export interface SplitAssignment {
   moves: SplitMove[];
   /** Classes that could not be present in every split with a positive fraction (too few groups). */
   unrepairable: { label: string; missing: SplitName[]; groups: number }[];
+  /** Groups kept in the split a previous index gave them (`--keep-splits`). */
+  pinned: number;
 }
 
 /** The split a group hashes to: u = hash(seed, group) in [0,1), cut at the cumulative fractions. */
@@ -40,17 +42,23 @@ export function hashedSplit(seed: string, group: string, f: Record<SplitName, nu
  * hash lies closest to that split's range, taken from the split that holds the
  * most groups of the class). Moves are few and reported; only classes that
  * lacked a split can cause them, so stability holds for everything else.
+ *
+ * `pinned` groups (from a previous index, `--keep-splits`) keep the split they had,
+ * when that split still has a positive fraction, and are never moved by the repair.
  */
-export function assignSplits(groups: readonly GroupInfo[], seed: string, f: Record<SplitName, number>): SplitAssignment {
+export function assignSplits(groups: readonly GroupInfo[], seed: string, f: Record<SplitName, number>, pinned: ReadonlyMap<string, SplitName> = new Map()): SplitAssignment {
   const sorted = [...groups].sort((a, b) => byString(a.key, b.key));
   const byGroup = new Map<string, SplitName>();
   const hashOf = new Map<string, number>();
+  const active = SPLITS.filter((s) => f[s] > 0);
+  const isPinned = (key: string) => pinned.has(key) && active.includes(pinned.get(key)!);
+  let pinnedCount = 0;
   for (const g of sorted) {
     const { split, u } = hashedSplit(seed, g.key, f);
-    byGroup.set(g.key, split);
+    byGroup.set(g.key, isPinned(g.key) ? pinned.get(g.key)! : split);
+    if (isPinned(g.key)) pinnedCount++;
     hashOf.set(g.key, u);
   }
-  const active = SPLITS.filter((s) => f[s] > 0);
   const classes = [...new Set(sorted.flatMap((g) => Object.keys(g.classes)))].sort(byString);
   const moves: SplitMove[] = [];
   const unrepairable: SplitAssignment['unrepairable'] = [];
@@ -73,11 +81,12 @@ export function assignSplits(groups: readonly GroupInfo[], seed: string, f: Reco
       const donor = donors[0];
       if (!donor) continue;
       const pick = withClass
-        .filter((g) => byGroup.get(g.key) === donor)
+        .filter((g) => byGroup.get(g.key) === donor && !isPinned(g.key))
         .sort((a, b) => distance(hashOf.get(a.key)!, target) - distance(hashOf.get(b.key)!, target) || byString(a.key, b.key))[0];
+      if (!pick) continue;
       byGroup.set(pick.key, target);
       moves.push({ group: pick.key, from: donor, to: target, because: `class ${label} had no group in ${target}` });
     }
   }
-  return { byGroup, moves, unrepairable };
+  return { byGroup, moves, unrepairable, pinned: pinnedCount };
 }

@@ -131,6 +131,27 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
     expect(new Set([...b1, ...b7].map((r) => r.group)).size).toBe(1);
   }, 60_000);
 
+  it('--keep-splits: groups of a previous index keep their split, even under another seed; the card counts them', async () => {
+    serveScenario(scenarioBoards());
+    const east = await scenarioRecipe(join(box.dir, 'keep-one'), {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }]);
+    await runRecipe(east, { cacheDir: join(box.dir, 'cache') });
+    const first = await readIndex(east.output);
+    const groupSplit = new Map(first.map((r) => [r.group, r.split]));
+    // another seed would send groups elsewhere; the previous index pins them
+    const both = await scenarioRecipe(join(box.dir, 'keep-two'), { seed: 'another-seed' }, [{ manifest: `${BASE}/manifests/east-cabinet.json` }, { manifest: `${BASE}/manifests/west-cabinet.json` }]);
+    const unpinned = await runRecipe({ ...both, output: join(box.dir, 'keep-unpinned') }, { cacheDir: join(box.dir, 'cache') });
+    expect(unpinned.build.patches).toBeGreaterThan(first.length);
+    const moved = (await readIndex(join(box.dir, 'keep-unpinned'))).filter((r) => groupSplit.has(r.group) && groupSplit.get(r.group) !== r.split);
+    expect(moved.length).toBeGreaterThan(0); // without pinning, the new seed moves some of them
+    await runRecipe(both, { cacheDir: join(box.dir, 'cache'), keepSplits: join(east.output, 'index.jsonl') });
+    const second = await readIndex(both.output);
+    for (const r of second) if (groupSplit.has(r.group)) expect(r.split, r.group).toBe(groupSplit.get(r.group));
+    const card = JSON.parse(await readFile(join(both.output, 'card.json'), 'utf8'));
+    const newGroups = new Set(second.map((r) => r.group).filter((g) => !groupSplit.has(g))).size;
+    expect(card.composition.splitPolicy.previousIndex).toEqual({ groups: groupSplit.size, kept: groupSplit.size, changed: 0, new: newGroups });
+    await expect(runRecipe(both, { cacheDir: join(box.dir, 'cache'), keepSplits: join(box.dir, 'no-such-index.jsonl') })).rejects.toThrow(/no-such-index\.jsonl at \/: cannot read the previous index for --keep-splits/);
+  }, 60_000);
+
   it('adding a source moves no existing patch between splits', async () => {
     const boards = scenarioBoards();
     serveScenario(boards);

@@ -49,6 +49,16 @@ describe('group-aware stable splits', () => {
     expect(a.moves.length).toBeGreaterThan(0);
     expect(a.moves[0].because).toBe(`class gilding had no group in ${a.moves[0].to}`);
   });
+  it('pinned groups keep their split and are never moved by the repair', () => {
+    const g = groups(60);
+    const pins = new Map(g.slice(0, 20).map((x) => [x.key, 'test' as const]));
+    const a = assignSplits(g, 'seed', F, pins);
+    expect(a.pinned).toBe(20);
+    for (const [k, s] of pins) expect(a.byGroup.get(k)).toBe(s);
+    expect(a.moves.filter((m) => pins.has(m.group))).toEqual([]);
+    // a pin to a split with no fraction is ignored
+    expect(assignSplits(g, 'seed', { train: 1, val: 0, test: 0 }, pins).pinned).toBe(0);
+  });
   it('reports a class with fewer groups than splits instead of inventing one', () => {
     const a = assignSplits([{ key: 'only', classes: { gilding: 5 } }], 's', F);
     expect(a.unrepairable).toEqual([{ label: 'gilding', missing: expect.any(Array), groups: 1 }]);
