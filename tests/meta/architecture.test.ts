@@ -3,7 +3,7 @@ import { readdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { spawnSync } from 'node:child_process';
 
-const PURE = ['iiif', 'annotation', 'geometry', 'plan', 'patch', 'split'];
+const PURE = ['iiif', 'annotation', 'geometry', 'plan', 'patch', 'split', 'probe'];
 const FORBIDDEN = /from '(node:fs|node:fs\/promises|fs|got|sharp|node:http|node:child_process)'|\bprocess\./;
 
 describe('architecture', () => {
