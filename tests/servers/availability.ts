@@ -25,3 +25,13 @@ export function torchvisionAvailable(): boolean {
   if (!have) console.warn('skipping the torchvision loader test: apt-get install -y python3-torchvision to run it');
   return have;
 }
+
+/** Debian's Python with scikit-image and scikit-learn (independent references for the probe). Required in CI. */
+export function scikitAvailable(): boolean {
+  const have = spawnSync('/usr/bin/python3', ['-c', 'import skimage, sklearn'], { encoding: 'utf8' }).status === 0;
+  if (!have && process.env.SWATCHBOOK_REQUIRE_SERVERS) {
+    throw new Error('SWATCHBOOK_REQUIRE_SERVERS is set but /usr/bin/python3 cannot import skimage and sklearn (apt-get install -y python3-skimage python3-sklearn)');
+  }
+  if (!have) console.warn('skipping the scikit-image/scikit-learn comparisons: apt-get install -y python3-skimage python3-sklearn to run them');
+  return have;
+}
