@@ -213,6 +213,25 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       stdout.write(o.json ? `${JSON.stringify(chain, null, 2)}\n` : `${renderTrace(chain)}\n`);
     });
 
+  program.command('probe <dataset>').description('texture descriptors and retrieval scores: can the classes be told apart, and does test leak from train? Writes probe.json beside the dataset')
+    .option('--out <dir>', 'folder for probe.json (default: <dataset>-probe beside the dataset)')
+    .option('--json', 'print the report as JSON')
+    .option('--quiet', 'print nothing but errors')
+    .action(async (dataset: string, o: { out?: string; json?: boolean; quiet?: boolean }) => {
+      const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      const { runProbe } = await import('../run-probe.ts');
+      const { report, file } = await runProbe(resolve(dataset), o.out ? resolve(o.out) : undefined, (d, t) => rep.progress('describe', d, t));
+      const all = report.retrieval.find((r) => r.descriptor === 'all' && r.direction === 'test→train');
+      print(o, [
+        `${report.patches.train} training and ${report.patches.test} test patches, ${report.patches.classes.length} classes${report.gallery.exact ? '' : ` (gallery sampled: ${report.gallery.size} of ${report.gallery.sampledFrom})`}`,
+        ...report.retrieval.filter((r) => r.direction === 'test→train').map((r) => `  ${r.descriptor.padEnd(6)} ${r.distance.padEnd(9)} P@1 ${r.overall.p1.toFixed(3)}  P@10 ${r.overall.p10.toFixed(3)}  mAP ${r.overall.map.toFixed(3)}`),
+        `  baselines: random P@1 ${report.baselines.random.p1.toFixed(3)}, majority class (${report.baselines.majority.class}) P@1 ${report.baselines.majority.p1.toFixed(3)}`,
+        all ? `separable: ${all.overall.p1 > report.baselines.random.p1 ? 'above' : 'not above'} the random baseline` : 'no test patches to query with',
+        `leakage: ${report.leakage.flagged.length} test patch(es) flagged${report.leakage.flagged.length ? `: ${report.leakage.flagged.slice(0, 5).map((f) => `${f.test}~${f.train}`).join(', ')}` : ''}`,
+        `report: ${file}`,
+      ].join('\n'), report);
+    });
+
   program.command('demo').description('paint the invented sample boards, serve them on 127.0.0.1, and run the whole job')
     .option('--out <dir>', 'demo folder', 'swatchbook-demo')
     .addOption(new Option('--port <n>', 'port of the embedded image server on 127.0.0.1').default(String(DEFAULT_DEMO_PORT)))
