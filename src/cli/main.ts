@@ -165,19 +165,39 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       if (failures.length) exitCode = 1;
     });
 
+  /** Runs the probe after a build; a probe that fails is a warning, never a failed build. */
+  const probeAfterBuild = async (dataset: string, rep: Reporter): Promise<{ file: string; separable: boolean; flagged: number } | { error: string }> => {
+    try {
+      const { runProbe } = await import('../run-probe.ts');
+      const { report, file } = await runProbe(dataset, undefined, (d, t) => rep.progress('describe', d, t));
+      const all = report.retrieval.find((r) => r.descriptor === 'all' && r.direction === 'test→train');
+      return { file, separable: !!all && all.overall.p1 > report.baselines.random.p1, flagged: report.leakage.flagged.length };
+    } catch (err) {
+      const message = redactUrl((err as Error).message ?? String(err));
+      rep.warn(`probe: ${message}`);
+      return { error: message };
+    }
+  };
+  const probeLine = (p: Awaited<ReturnType<typeof probeAfterBuild>>) =>
+    'error' in p ? `probe: not written (${p.error})` : `probe: ${p.separable ? 'classes separate above the random baseline' : 'classes do not separate above the random baseline'}; ${p.flagged} test patch(es) flagged for leakage; ${p.file}`;
+
   const buildLike = (name: string, description: string, defaultMode: FetchMode | undefined) =>
-    shared(program.command(`${name} <recipe>`).description(description)).action(async (path: string, o: Shared) => {
+    shared(program.command(`${name} <recipe>`).description(description))
+      .option('--no-probe', 'do not run the probe after the build')
+      .action(async (path: string, o: Shared & { probe?: boolean }) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const recipe = await recipeWith(path, o);
       const mode = o.frozen || o.offline ? modeOf(o) : (defaultMode ?? 'online');
       const { runRecipe } = await pipeline();
       const { build } = await runRecipe(recipe, runOptions(o, rep, mode));
+      const probed = o.probe === false ? undefined : await probeAfterBuild(build.out, rep);
       print(o, [
         `${rep.bold(`${build.patches} patches`)} (train ${build.perSplit.train}, val ${build.perSplit.val}, test ${build.perSplit.test}) from ${build.crops} crops; ${build.nearDuplicatePairs} near-duplicate pair(s)`,
         `fetch: ${build.harvest.requests} request(s), ${build.harvest.fromCache} from the cache, ${build.harvest.retries} retries`,
         `dataset: ${build.out}  (card.md, index.jsonl, splits/, lock.json)`,
         build.failures ? `${build.failures} failure(s): see ${join(build.out, 'failures.jsonl')}` : 'no failures',
-      ].join('\n'), build);
+        ...(probed ? [probeLine(probed)] : []),
+      ].join('\n'), { ...build, ...(probed ? { probe: probed } : {}) });
       if (build.failures) exitCode = 1;
     });
   buildLike('build', 'cut patches from the cache and write the dataset (never contacts a server)', 'offline');
@@ -244,15 +264,17 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       const { runDemo } = await import('../demo/run-demo.ts');
       const result = await runDemo(o.out, port, { onStage: (s) => rep.note(s), warn: (m) => rep.warn(m), onProgress: (stage, d, t) => rep.progress(stage, d, t) });
       const b = result.build;
+      const probed = await probeAfterBuild(result.dataset, rep);
       print(o, [
         rep.bold(`demo done: ${b.patches} patches (train ${b.perSplit.train}, val ${b.perSplit.val}, test ${b.perSplit.test})`),
         `dataset:   ${result.dataset}`,
         `card:      ${join(result.dataset, 'card.md')}`,
         `index:     ${join(result.dataset, 'index.jsonl')}`,
         `failures:  ${join(result.dataset, 'failures.jsonl')} (${b.failures})`,
+        probeLine(probed),
         `recipe:    ${result.recipeFile}`,
         `try:       swatchbook trace <id from index.jsonl> --dataset ${result.dataset}`,
-      ].join('\n'), result);
+      ].join('\n'), { ...result, probe: probed });
       if (b.failures) exitCode = 1;
     });
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { cp, readFile, writeFile } from 'node:fs/promises';
+import { cp, readFile, rm, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { probe, ProbePatch, standardiser } from '../../src/probe/probe.ts';
 import { describePatch } from '../../src/probe/describe.ts';
@@ -71,5 +71,20 @@ describe('swatchbook probe <dataset>', () => {
     out = '';
     expect(await main(['probe', leakedDir, '--json'], io)).toBe(0);
     expect(JSON.parse(out).leakage.flagged).toContainEqual(expect.objectContaining({ test: 'ffffffffffffffff', train: victim.id, hamming: 0 }));
+  }, 120_000);
+
+  it('run writes the probe beside the dataset by default; --no-probe skips it', async () => {
+    serveScenario(scenarioBoards());
+    const recipe = await scenarioRecipe(join(box.dir, 'cli'));
+    const io = { stdout: { write: () => true } as unknown as NodeJS.WriteStream, stderr: { write: () => true } as unknown as NodeJS.WriteStream };
+    let out = '';
+    const jsonIo = { ...io, stdout: { write: (s: string) => ((out += s), true) } as unknown as NodeJS.WriteStream };
+    expect(await main(['run', recipe.file, '--json'], jsonIo)).toBe(0);
+    const summary = JSON.parse(out);
+    expect(summary.probe.file).toBe(join(`${recipe.output}-probe`, 'probe.json'));
+    expect(summary.probe.separable).toBe(true);
+    await rm(`${recipe.output}-probe`, { recursive: true });
+    expect(await main(['build', recipe.file, '--no-probe', '--quiet'], io)).toBe(0);
+    await expect(readFile(join(`${recipe.output}-probe`, 'probe.json'))).rejects.toThrow();
   }, 120_000);
 });
