@@ -4,34 +4,30 @@ import { spawnSync } from 'node:child_process';
 export const IIPSRV_FCGI = '/usr/lib/iipimage-server/iipsrv.fcgi';
 
 /**
- * Whether the Debian packages for the Image API 2 server are here. In CI
- * (SWATCHBOOK_REQUIRE_SERVERS set, as .ci/run does) a missing package is a failure, never a skip.
+ * Whether what a group of tests needs from Debian is here. In CI
+ * (SWATCHBOOK_REQUIRE_SERVERS set, as .ci/run does) a missing package is a failure, never a skip;
+ * elsewhere the tests skip with a one-line hint naming the packages.
  */
+function available(have: boolean, what: string, packages: string): boolean {
+  if (!have && process.env.SWATCHBOOK_REQUIRE_SERVERS) throw new Error(`SWATCHBOOK_REQUIRE_SERVERS is set but ${what} is missing (apt-get install -y ${packages})`);
+  if (!have) console.warn(`skipping the tests that need ${what}: apt-get install -y ${packages} to run them`);
+  return have;
+}
+
+const python = (modules: string) => spawnSync('/usr/bin/python3', ['-c', `import ${modules}`], { encoding: 'utf8' }).status === 0;
+
+/** The Debian packages for the Image API 2 server (iipsrv behind lighttpd, libvips tools). */
 export function iipAvailable(): boolean {
   const have = existsSync(IIPSRV_FCGI) && spawnSync('lighttpd', ['-v']).status === 0 && spawnSync('vips', ['--version']).status === 0;
-  if (!have && process.env.SWATCHBOOK_REQUIRE_SERVERS) {
-    throw new Error('SWATCHBOOK_REQUIRE_SERVERS is set but iipimage-server, lighttpd or libvips-tools is missing (apt-get install -y iipimage-server lighttpd libvips-tools)');
-  }
-  if (!have) console.warn('skipping the iipsrv tests: apt-get install -y iipimage-server lighttpd libvips-tools to run them');
-  return have;
+  return available(have, 'iipimage-server, lighttpd or libvips-tools', 'iipimage-server lighttpd libvips-tools');
 }
 
-/** Debian's Python with torchvision (the reference loader). Required in CI like the image servers. */
+/** Debian's Python with torchvision (the reference loader). */
 export function torchvisionAvailable(): boolean {
-  const have = spawnSync('/usr/bin/python3', ['-c', 'import torchvision'], { encoding: 'utf8' }).status === 0;
-  if (!have && process.env.SWATCHBOOK_REQUIRE_SERVERS) {
-    throw new Error('SWATCHBOOK_REQUIRE_SERVERS is set but /usr/bin/python3 cannot import torchvision (apt-get install -y python3-torchvision)');
-  }
-  if (!have) console.warn('skipping the torchvision loader test: apt-get install -y python3-torchvision to run it');
-  return have;
+  return available(python('torchvision'), 'torchvision for /usr/bin/python3', 'python3-torchvision');
 }
 
-/** Debian's Python with scikit-image and scikit-learn (independent references for the probe). Required in CI. */
+/** Debian's Python with scikit-image and scikit-learn (independent references for the probe). */
 export function scikitAvailable(): boolean {
-  const have = spawnSync('/usr/bin/python3', ['-c', 'import skimage, sklearn'], { encoding: 'utf8' }).status === 0;
-  if (!have && process.env.SWATCHBOOK_REQUIRE_SERVERS) {
-    throw new Error('SWATCHBOOK_REQUIRE_SERVERS is set but /usr/bin/python3 cannot import skimage and sklearn (apt-get install -y python3-skimage python3-sklearn)');
-  }
-  if (!have) console.warn('skipping the scikit-image/scikit-learn comparisons: apt-get install -y python3-skimage python3-sklearn to run them');
-  return have;
+  return available(python('skimage, sklearn'), 'scikit-image and scikit-learn for /usr/bin/python3', 'python3-skimage python3-sklearn');
 }
