@@ -168,10 +168,10 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
   /** Runs the probe after a build; a probe that fails is a warning, never a failed build. */
   const probeAfterBuild = async (dataset: string, rep: Reporter): Promise<{ file: string; separable: boolean; flagged: number } | { error: string }> => {
     try {
-      const { runProbe } = await import('../run-probe.ts');
+      const [{ runProbe }, { probeHeadline }] = await Promise.all([import('../run-probe.ts'), import('../probe/probe.ts')]);
       const { report, file } = await runProbe(dataset, undefined, (d, t) => rep.progress('describe', d, t));
-      const all = report.retrieval.find((r) => r.descriptor === 'all' && r.direction === 'test→train');
-      return { file, separable: !!all && all.overall.p1 > report.baselines.random.p1, flagged: report.leakage.flagged.length };
+      const { separable, flagged } = probeHeadline(report);
+      return { file, separable, flagged };
     } catch (err) {
       const message = redactUrl((err as Error).message ?? String(err));
       rep.warn(`probe: ${message}`);
@@ -239,14 +239,14 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
     .option('--quiet', 'print nothing but errors')
     .action(async (dataset: string, o: { out?: string; json?: boolean; quiet?: boolean }) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
-      const { runProbe } = await import('../run-probe.ts');
+      const [{ runProbe }, { probeHeadline }] = await Promise.all([import('../run-probe.ts'), import('../probe/probe.ts')]);
       const { report, file } = await runProbe(resolve(dataset), o.out ? resolve(o.out) : undefined, (d, t) => rep.progress('describe', d, t));
-      const all = report.retrieval.find((r) => r.descriptor === 'all' && r.direction === 'test→train');
+      const { all, separable } = probeHeadline(report);
       print(o, [
         `${report.patches.train} training and ${report.patches.test} test patches, ${report.patches.classes.length} classes${report.gallery.exact ? '' : ` (gallery sampled: ${report.gallery.size} of ${report.gallery.sampledFrom})`}`,
         ...report.retrieval.filter((r) => r.direction === 'test→train').map((r) => `  ${r.descriptor.padEnd(6)} ${r.distance.padEnd(9)} P@1 ${r.overall.p1.toFixed(3)}  P@10 ${r.overall.p10.toFixed(3)}  mAP ${r.overall.map.toFixed(3)}`),
         `  baselines: random P@1 ${report.baselines.random.p1.toFixed(3)}, majority class (${report.baselines.majority.class}) P@1 ${report.baselines.majority.p1.toFixed(3)}`,
-        all ? `separable: ${all.overall.p1 > report.baselines.random.p1 ? 'above' : 'not above'} the random baseline` : 'no test patches to query with',
+        all ? `separable: ${separable ? 'above' : 'not above'} the random baseline` : 'no test patches to query with',
         `leakage: ${report.leakage.flagged.length} test patch(es) flagged${report.leakage.flagged.length ? `: ${report.leakage.flagged.slice(0, 5).map((f) => `${f.test}~${f.train}`).join(', ')}` : ''}`,
         `report: ${file}`,
       ].join('\n'), report);

@@ -214,3 +214,9 @@ export function probe(patches: readonly ProbePatch[], opts: ProbeOptions): Probe
     notes,
   };
 }
+
+/** The headline of a report: the concatenated descriptors, test querying train, against the random baseline. */
+export function probeHeadline(report: ProbeReport): { all?: RetrievalResult; separable: boolean; flagged: number } {
+  const all = report.retrieval.find((r) => r.descriptor === 'all' && r.direction === 'test→train');
+  return { ...(all ? { all } : {}), separable: !!all && all.overall.p1 > report.baselines.random.p1, flagged: report.leakage.flagged.length };
+}
