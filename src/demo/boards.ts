@@ -63,18 +63,7 @@ export function demoBoards(): Board[] {
       const shape = sampleShape(cellW, cellH, k, 30 + Math.floor(r(10 + k) * 20), r(20 + k) < 0.4 ? { lean: 0.15, drop: 0.1 } : undefined);
       regions.push({ material, shape, annotator: (i + k) % 2 === 0 ? 'annotator-a' : 'annotator-b' });
     }
-    boards.push({
-      slug: `board-${String(i + 1).padStart(2, '0')}`,
-      title: `Sample board ${i + 1}`,
-      width,
-      height,
-      canvasPerPixel: i % 3 === 0 ? 0.5 : 1,
-      mmPerPixel: 0.25,
-      seed: 1000 + i,
-      flavour,
-      regions,
-      cabinet,
-    });
+    boards.push(numberedBoard(i, { width, height, canvasPerPixel: i % 3 === 0 ? 0.5 : 1, flavour, regions, cabinet }));
   }
   // The loan cabinet's last board repeats board-02 pixel for pixel, served as Image API 2.
   const original = boards[1];
@@ -105,18 +94,7 @@ function secondArchiveBoards(): Board[] {
       const shape = sampleShape(cellW, cellH, k, 30 + Math.floor(r(10 + k) * 20), k === 1 ? { lean: 0.2, drop: 0 } : undefined);
       regions.push({ material: MATERIALS[(j + k) % 3], shape, annotator: (j + k) % 2 === 0 ? 'annotator-a' : 'annotator-b' });
     }
-    out.push({
-      slug: `board-${String(i + 1).padStart(2, '0')}`,
-      title: `Sample board ${i + 1}`,
-      width,
-      height,
-      canvasPerPixel: j % 2 === 0 ? 0.5 : 1,
-      mmPerPixel: 0.25,
-      seed: 1000 + i,
-      flavour: 'image1',
-      regions,
-      cabinet: SECOND_ARCHIVE_CABINET,
-    });
+    out.push(numberedBoard(i, { width, height, canvasPerPixel: j % 2 === 0 ? 0.5 : 1, flavour: 'image1', regions, cabinet: SECOND_ARCHIVE_CABINET }));
   }
   return out;
 }
@@ -132,6 +110,11 @@ function sampleShape(cellW: number, cellH: number, k: number, pad: number, polyg
   if (!polygon) return { kind: 'rect', rect: { x: x0, y: y0, w: x1 - x0, h: y1 - y0 } };
   const ring: Point[] = [{ x: x0, y: y1 }, { x: x0 + (x1 - x0) * polygon.lean, y: y0 }, { x: x1, y: y0 + (y1 - y0) * polygon.drop }, { x: x1 - (x1 - x0) * 0.1, y: y1 }];
   return { kind: 'polygon', rings: [ring] };
+}
+
+/** Board number i + 1: its slug, title, seed and physical scale follow from the number. */
+function numberedBoard(i: number, b: Pick<Board, 'width' | 'height' | 'canvasPerPixel' | 'flavour' | 'regions' | 'cabinet'>): Board {
+  return { slug: `board-${String(i + 1).padStart(2, '0')}`, title: `Sample board ${i + 1}`, width: b.width, height: b.height, canvasPerPixel: b.canvasPerPixel, mmPerPixel: 0.25, seed: 1000 + i, flavour: b.flavour, regions: b.regions, cabinet: b.cabinet };
 }
 
 /** Paints a board: ground, then each region's material inside its shape. */
