@@ -4,7 +4,7 @@ import { FetchError, InputError, UsageError } from './errors.ts';
 import { SPLITS, type SplitName } from './split/assign.ts';
 import { ContentCache } from './net/cache.ts';
 import { Fetcher, FetchEvent, FetchMode } from './net/fetcher.ts';
-import { lockFrom, readLock, writeLock, LockFile } from './net/lock.ts';
+import { lockFrom, lockedSplits, readLock, writeLock, LockFile } from './net/lock.ts';
 import { DEFAULT_RETRY_POLICY } from './net/retry-policy.ts';
 import { harvestCrops, HarvestResult } from './harvest/harvest.ts';
 import { planDataset, DatasetPlan } from './plan/plan-dataset.ts';
@@ -36,6 +36,8 @@ export interface RunOptions {
   cpuConcurrency?: number;
   /** A previous index.jsonl whose groups keep their splits (`--keep-splits`). */
   keepSplits?: string;
+  /** Assign splits afresh, ignoring the previous assignment in the lock. */
+  freshSplits?: boolean;
   /** Write `<name>.lock.json` beside the recipe (default true; verify does not). */
   writeLock?: boolean;
   /** Problems in documents from other servers are fatal (exit 2) instead of failure records. */
@@ -98,7 +100,11 @@ export async function planRecipe(recipe: Recipe, opts: RunOptions = {}): Promise
 export async function harvestRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { harvest: HarvestResult }> {
   const planned = await planRecipe(recipe, opts);
   const harvest = await harvestCrops(planned.plan.crops, planned.fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
-  if ((opts.mode ?? 'online') !== 'frozen') await writeLock(lockPathFor(recipe), lockFrom(planned.fetcher.used.values()));
+  if ((opts.mode ?? 'online') !== 'frozen') {
+    // The harvest assigns no splits: the last build's stay in the lock.
+    const before = await readLock(lockPathFor(recipe));
+    await writeLock(lockPathFor(recipe), lockFrom(planned.fetcher.used.values(), before?.splits));
+  }
   await logRun(recipe, opts, 'harvest', harvest.summary);
   return { ...planned, harvest };
 }
@@ -119,12 +125,14 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
     import('./dataset/write-dataset.ts'),
   ]);
   const previousSplits = opts.keepSplits ? await readPreviousSplits(opts.keepSplits) : undefined;
+  const { seed, split } = recipe;
+  const lockedBefore = opts.freshSplits ? undefined : lockedSplits(await readLock(lockPathFor(recipe)), seed, split.groupBy, split.fractions);
   const planned = await planRecipe(recipe, opts);
   const { plan, sources, fetcher } = planned;
   const harvest = await harvestCrops(plan.crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
-  const lock = lockFrom(fetcher.used.values());
   const tx = await FolderTransaction.begin(recipe.output);
   let build: BuildSummary;
+  let lock: LockFile;
   try {
     const staging = tx.path('.staging');
     await mkdir(staging, { recursive: true });
@@ -133,7 +141,8 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
       onProgress: (d, t) => opts.onProgress?.('cut', d, t),
     });
     const tool = toolVersions();
-    const data = assembleDataset({ recipe, sources, plan, served: harvest.served, harvestFailures: harvest.failures, cuts: cut.cuts, cutFailures: cut.failures, resampledPieces: cut.resampledPieces, tool, ...(previousSplits ? { previousSplits } : {}) });
+    const data = assembleDataset({ recipe, sources, plan, served: harvest.served, harvestFailures: harvest.failures, cuts: cut.cuts, cutFailures: cut.failures, resampledPieces: cut.resampledPieces, tool, ...(previousSplits ? { previousSplits } : {}), ...(lockedBefore ? { lockedSplits: lockedBefore } : {}) });
+    lock = lockFrom(fetcher.used.values(), { seed, groupBy: split.groupBy, fractions: split.fractions, groups: Object.fromEntries(data.assignment.byGroup) });
     await writeDataset(tx, staging, data, serialiseLock(lock), recipe, tool);
     await tx.commit();
     build = {

@@ -25,6 +25,7 @@ interface Shared {
   strict?: boolean;
   format?: string;
   keepSplits?: string;
+  freshSplits?: boolean;
 }
 
 function shared(cmd: Command): Command {
@@ -36,6 +37,7 @@ function shared(cmd: Command): Command {
     .option('--frozen', 'allow only requests in the lock file, and only bodies with the locked hashes')
     .option('--format <layout>', 'folder (class folders, the default) or tar (also WebDataset-style tar shards; the recipe\'s shards.patchesPerShard sets their size)')
     .option('--keep-splits <index.jsonl>', 'keep every group of a previous dataset\'s index in the split it had (build, run)')
+    .option('--fresh-splits', 'assign splits afresh instead of starting from the last build\'s (in the lock) (build, run)')
     .option('--strict', 'treat a problem in a document from someone else\'s server (a bad annotation, an unreadable document, a collection cycle, a refused address) as fatal (exit 2) instead of a failure record')
     .option('--json', 'print a machine-readable summary on stdout')
     .option('--quiet', 'print nothing but errors')
@@ -71,6 +73,7 @@ function runOptions(o: Shared, rep: Reporter, mode?: FetchMode): RunOptions {
     ...(concurrency ? { concurrency } : {}),
     ...(o.strict ? { strict: true } : {}),
     ...(o.keepSplits ? { keepSplits: resolve(o.keepSplits) } : {}),
+    ...(o.freshSplits ? { freshSplits: true } : {}),
     warn: (m) => rep.warn(m),
     onProgress: (stage, done, total) => rep.progress(stage, done, total),
   };

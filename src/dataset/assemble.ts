@@ -5,7 +5,7 @@ import type { PieceOutcome } from '../harvest/harvest.ts';
 import type { DatasetPlan, PatchPlan } from '../plan/plan-dataset.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ResolvedSources } from '../sources/resolve.ts';
-import { assignSplits, SplitName, SPLITS } from '../split/assign.ts';
+import { assignSplits, SplitAssignment, SplitName, SPLITS } from '../split/assign.ts';
 import { mergeGroups, nearDuplicatePairs, NearDuplicatePair } from '../split/near-duplicates.ts';
 import { byString } from '../util/hash.ts';
 import { buildCard, Card } from './card.ts';
@@ -33,6 +33,22 @@ export interface AssembleInput {
   tool: ToolVersions;
   /** Splits of groups in a previous index (`--keep-splits`): those groups keep them. */
   previousSplits?: ReadonlyMap<string, SplitName>;
+  /** The split of every group in the last build, from the lock: groups start there and move only for balance. */
+  lockedSplits?: ReadonlyMap<string, SplitName>;
+}
+
+/** How the assignment compares with the last build's (from the lock). */
+export interface SplitChurn {
+  /** Groups in the last build. */
+  groups: number;
+  /** Of those still present: how many kept their split and how many moved. */
+  kept: number;
+  moved: number;
+  /** Moves by direction, e.g. `val→train`. */
+  movedBy: Record<string, number>;
+  /** Groups not in the last build, and groups of the last build no longer present. */
+  new: number;
+  gone: number;
 }
 
 /** Everything the write stage writes, in its final order. */
@@ -42,6 +58,7 @@ export interface AssembledDataset {
   card: Card;
   pairs: NearDuplicatePair[];
   perSplit: Record<string, number>;
+  assignment: SplitAssignment;
 }
 
 /**
@@ -80,7 +97,11 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
     c[p.label] = (c[p.label] ?? 0) + 1;
     classesByGroup.set(g, c);
   }
-  const assignment = assignSplits([...classesByGroup.entries()].map(([key, classes]) => ({ key, classes })), recipe.seed, recipe.split.fractions, i.previousSplits);
+  const assignment = assignSplits([...classesByGroup.entries()].map(([key, classes]) => ({ key, classes })), recipe.seed, recipe.split.fractions, {
+    ...(i.previousSplits ? { pinned: i.previousSplits } : {}),
+    ...(i.lockedSplits ? { previous: i.lockedSplits } : {}),
+  });
+  const churn = i.lockedSplits ? splitChurn(i.lockedSplits, assignment.byGroup) : undefined;
   let previous: { groups: number; kept: number; changed: number; new: number } | undefined;
   if (i.previousSplits) {
     const groups = [...classesByGroup.keys()];
@@ -144,8 +165,24 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
     tool: i.tool,
     droppedPatches: plan.patches.length - kept.length,
     ...(previous ? { previousSplits: previous } : {}),
+    ...(churn ? { churn } : {}),
     resampledPieces: i.resampledPieces,
   });
   const perSplit = Object.fromEntries(SPLITS.map((s) => [s, records.filter((r) => r.split === s).length]));
-  return { records, failures, card, pairs, perSplit };
+  return { records, failures, card, pairs, perSplit, assignment };
+}
+
+/** Compares an assignment with the last build's. */
+export function splitChurn(before: ReadonlyMap<string, SplitName>, after: ReadonlyMap<string, SplitName>): SplitChurn {
+  let kept = 0;
+  const movedBy: Record<string, number> = {};
+  for (const [g, s] of before) {
+    const now = after.get(g);
+    if (now === undefined) continue;
+    if (now === s) kept++;
+    else movedBy[`${s}→${now}`] = (movedBy[`${s}→${now}`] ?? 0) + 1;
+  }
+  const moved = Object.values(movedBy).reduce((a, b) => a + b, 0);
+  const sorted = Object.fromEntries(Object.entries(movedBy).sort((a, b) => byString(a[0], b[0])));
+  return { groups: before.size, kept, moved, movedBy: sorted, new: [...after.keys()].filter((g) => !before.has(g)).length, gone: [...before.keys()].filter((g) => !after.has(g)).length };
 }

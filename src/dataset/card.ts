@@ -2,9 +2,10 @@ import type { DatasetPlan } from '../plan/plan-dataset.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { FailureRecord } from '../harvest/harvest.ts';
 import type { NearDuplicatePair } from '../split/near-duplicates.ts';
-import { SPLITS, SplitAssignment, SplitName } from '../split/assign.ts';
+import { BALANCE_BOUND, BALANCE_MIN_GROUPS, SPLITS, SplitAssignment, SplitName } from '../split/assign.ts';
 import { byString } from '../util/hash.ts';
 import type { IndexRecord } from './records.ts';
+import type { SplitChurn } from './assemble.ts';
 import type { SourceNote } from '../sources/resolve.ts';
 
 export interface CardInputs {
@@ -24,7 +25,13 @@ export interface CardInputs {
   resampledPieces: number;
   /** Against a previous index (`--keep-splits`): its groups, how many kept their split, changed, and new groups. */
   previousSplits?: { groups: number; kept: number; changed: number; new: number };
+  /** Against the last build's assignment, from the lock. */
+  churn?: SplitChurn;
 }
+
+export const SPLIT_RULE =
+  'balanced and stable: each group starts in its split of the last build (from the lock) or where hash(seed, group) sends it; then the fewest groups, nearest a boundary, move until every class with at least 20 groups has each split\'s share of its patches within 0.03 of the target; a group of the last build never moves from test to train';
+const MOVES_LISTED = 50;
 
 const count = <T>(items: readonly T[], key: (t: T) => string): Record<string, number> => {
   const out: Record<string, number> = {};
@@ -84,10 +91,14 @@ export function buildCard(i: CardInputs) {
       nearDuplicates: { pairs: i.pairs.length, mergedGroups: i.mergedGroups, examples: i.pairs.slice(0, 20) },
       groups: { count: groups.size, groupBy: i.recipe.split.groupBy },
       splitPolicy: {
-        rule: 'stable: each group goes where hash(seed, group) sends it; a class missing from a split is repaired by moving the fewest groups, and those moves are listed',
-        moves: i.assignment.moves,
+        rule: SPLIT_RULE,
+        bound: { maxDeviation: BALANCE_BOUND, minGroups: BALANCE_MIN_GROUPS },
+        balance: i.assignment.balance,
+        movedFromStart: i.assignment.moves.length,
+        moves: i.assignment.moves.slice(0, MOVES_LISTED),
         unrepairable: i.assignment.unrepairable,
         ...(i.previousSplits ? { previousIndex: i.previousSplits } : {}),
+        ...(i.churn ? { againstLock: i.churn } : { againstLock: null }),
       },
       attributes: sortKeys(Object.fromEntries(Object.entries(attributes).map(([k, v]) => [k, sortKeys(v)]))),
       rightsExcluded: i.plan.rightsExcluded,
@@ -149,17 +160,20 @@ export function renderCardMarkdown(card: Card): string {
     const n = SPLITS.map((s) => c.perSplit[s][cls]);
     return [cls, ...n, n.reduce((a, b) => a + b, 0)];
   }));
-  lines.push('Realised share of each class per split (target ' + SPLITS.map((s) => `${s} ${c.targetFractions[s]}`).join(', ') + '):', '');
-  table(['class', ...SPLITS], c.classes.map((cls) => [cls, ...SPLITS.map((s) => c.realisedFractions[cls][s])]));
-  lines.push('Patches per source manifest:', '');
-  table(['manifest', 'patches'], Object.entries(c.perSource).map(([m, v]) => [m, Object.entries(v).map(([k, n]) => `${k} ${n}`).join(', ')]));
-  lines.push('Rights of the patches:', '');
-  table(['rights', 'patches'], Object.entries(c.rights));
-  lines.push(`Regions planned: ${c.regions.planned}. Skipped: ${Object.entries(c.regions.skipped).map(([k, n]) => `${k} ${n}`).join(', ') || 'none'}.`, '');
-  lines.push(`Negatives: wanted ${c.negatives.wanted}, planned ${c.negatives.planned}, borrowed from other canvases of the same group ${c.negatives.borrowedWithinGroup}, short by ${c.negatives.shortfall}.`, '');
-  lines.push(`Near-duplicates across groups: ${c.nearDuplicates.pairs} pairs; ${c.nearDuplicates.mergedGroups} groups merged into others before splitting.`, '');
+  lines.push('Realised share of each class per split, counted in patches (target ' + SPLITS.map((s) => `${s} ${c.targetFractions[s]}`).join(', ') + `; promised within ${c.splitPolicy.bound.maxDeviation} for a class with at least ${c.splitPolicy.bound.minGroups} groups):`, '');
+  const balanceOf = new Map(c.splitPolicy.balance.map((b) => [b.label, b]));
+  table(['class', ...SPLITS, 'groups', 'largest deviation'], c.classes.map((cls) => {
+    const b = balanceOf.get(cls);
+    const note = !b ? '' : b.bound ? (b.deviation <= c.splitPolicy.bound.maxDeviation ? ' (within the bound)' : ' (OUTSIDE the bound)') : ' (too few groups for the bound; as close as their sizes allow)';
+    return [cls, ...SPLITS.map((s) => c.realisedFractions[cls][s]), b?.groups ?? 0, b ? `${b.deviation}${note}` : '-'];
+  }));
   lines.push(`Split policy: ${c.splitPolicy.rule}.`);
-  if (c.splitPolicy.moves.length) for (const m of c.splitPolicy.moves) lines.push(`- moved ${m.group} from ${m.from} to ${m.to}: ${m.because}`);
+  const a = c.splitPolicy.againstLock;
+  if (a) {
+    const dirs = Object.entries(a.movedBy).map(([k, n]) => `${k} ${n}`).join(', ');
+    lines.push(`- against the last build (the lock): ${a.groups} group(s) then; ${a.kept} kept their split, ${a.moved} moved${dirs ? ` (${dirs})` : ''}; ${a.new} new, ${a.gone} gone`);
+  } else lines.push('- no previous assignment in the lock: every group started where its hash sends it');
+  lines.push(`- ${c.splitPolicy.movedFromStart} group(s) placed away from where they started, for balance${c.splitPolicy.movedFromStart > c.splitPolicy.moves.length ? ` (the first ${c.splitPolicy.moves.length} listed in card.json)` : ''}`);
   if (c.splitPolicy.unrepairable.length) for (const u of c.splitPolicy.unrepairable) lines.push(`- class ${u.label} has ${u.groups} group(s), too few for every split; absent from ${u.missing.join(', ')} (stability kept)`);
   const prev = (c.splitPolicy as { previousIndex?: { groups: number; kept: number; changed: number; new: number } }).previousIndex;
   if (prev) lines.push(`- kept the splits of a previous index (${prev.groups} group(s)): ${prev.kept} kept their split, ${prev.changed} changed, ${prev.new} new group(s) placed by the rule`);

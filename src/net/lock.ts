@@ -10,6 +10,15 @@ export const LOCK_VERSION = 1;
 export interface LockFile {
   lockVersion: number;
   entries: Record<string, Omit<ResponseFacts, 'url'>>;
+  /** The split of every group in the last build, and the settings it was made under. */
+  splits?: LockedSplits;
+}
+
+export interface LockedSplits {
+  seed: string;
+  groupBy: string;
+  fractions: { train: number; val: number; test: number };
+  groups: Record<string, 'train' | 'val' | 'test'>;
 }
 
 export function emptyLock(): LockFile {
@@ -20,7 +29,7 @@ export function emptyLock(): LockFile {
  * Builds a lock from facts, sorted by URL so its bytes do not depend on arrival
  * order. Credentials in URLs are removed: they never reach the lock.
  */
-export function lockFrom(facts: Iterable<ResponseFacts>): LockFile {
+export function lockFrom(facts: Iterable<ResponseFacts>, splits?: LockedSplits): LockFile {
   const rows = [...facts].map((f) => ({ ...f, url: redactUrl(f.url) })).sort((a, b) => byString(a.url, b.url));
   const entries: LockFile['entries'] = {};
   for (const f of rows) {
@@ -33,7 +42,19 @@ export function lockFrom(facts: Iterable<ResponseFacts>): LockFile {
       ...(f.lastModified !== undefined ? { lastModified: f.lastModified } : {}),
     };
   }
-  return { lockVersion: LOCK_VERSION, entries };
+  if (!splits) return { lockVersion: LOCK_VERSION, entries };
+  const groups = Object.fromEntries(Object.entries(splits.groups).sort((a, b) => byString(a[0], b[0])));
+  return { lockVersion: LOCK_VERSION, entries, splits: { seed: splits.seed, groupBy: splits.groupBy, fractions: { train: splits.fractions.train, val: splits.fractions.val, test: splits.fractions.test }, groups } };
+}
+
+/** The previous split of every group, when the lock has one made under these settings. */
+export function lockedSplits(lock: LockFile | undefined, seed: string, groupBy: string, fractions: { train: number; val: number; test: number }): Map<string, 'train' | 'val' | 'test'> | undefined {
+  const s = lock?.splits;
+  if (!s || typeof s !== 'object' || s.seed !== seed || s.groupBy !== groupBy) return undefined;
+  if (!s.fractions || s.fractions.train !== fractions.train || s.fractions.val !== fractions.val || s.fractions.test !== fractions.test) return undefined;
+  const out = new Map<string, 'train' | 'val' | 'test'>();
+  for (const [g, split] of Object.entries(s.groups ?? {})) if (split === 'train' || split === 'val' || split === 'test') out.set(g, split);
+  return out;
 }
 
 export function serialiseLock(lock: LockFile): string {
