@@ -142,7 +142,7 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
     });
     const tool = toolVersions();
     const data = assembleDataset({ recipe, sources, plan, served: harvest.served, harvestFailures: harvest.failures, cuts: cut.cuts, cutFailures: cut.failures, resampledPieces: cut.resampledPieces, tool, ...(previousSplits ? { previousSplits } : {}), ...(lockedBefore ? { lockedSplits: lockedBefore } : {}) });
-    lock = lockFrom(fetcher.used.values(), { seed, groupBy: split.groupBy, fractions: split.fractions, groups: Object.fromEntries(data.assignment.byGroup) });
+    lock = lockFrom(fetcher.used.values(), { seed, groupBy: split.groupBy, fractions: split.fractions, groups: Object.fromEntries(data.assignment.byGroup), ...(data.churn ? { churn: data.churn } : {}) });
     await writeDataset(tx, staging, data, serialiseLock(lock), recipe, tool);
     await tx.commit();
     build = {

@@ -33,8 +33,11 @@ export interface AssembleInput {
   tool: ToolVersions;
   /** Splits of groups in a previous index (`--keep-splits`): those groups keep them. */
   previousSplits?: ReadonlyMap<string, SplitName>;
-  /** The split of every group in the last build, from the lock: groups start there and move only for balance. */
-  lockedSplits?: ReadonlyMap<string, SplitName>;
+  /**
+   * The split of every group in the last build, from the lock (groups start there
+   * and move only for balance), and the churn that build recorded.
+   */
+  lockedSplits?: { groups: ReadonlyMap<string, SplitName>; churn?: unknown };
 }
 
 /** How the assignment compares with the last build's (from the lock). */
@@ -59,6 +62,8 @@ export interface AssembledDataset {
   pairs: NearDuplicatePair[];
   perSplit: Record<string, number>;
   assignment: SplitAssignment;
+  /** Against the lock's assignment (what the lock records with the new one). */
+  churn?: SplitChurn;
 }
 
 /**
@@ -99,9 +104,9 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
   }
   const assignment = assignSplits([...classesByGroup.entries()].map(([key, classes]) => ({ key, classes })), recipe.seed, recipe.split.fractions, {
     ...(i.previousSplits ? { pinned: i.previousSplits } : {}),
-    ...(i.lockedSplits ? { previous: i.lockedSplits } : {}),
+    ...(i.lockedSplits ? { previous: i.lockedSplits.groups } : {}),
   });
-  const churn = i.lockedSplits ? splitChurn(i.lockedSplits, assignment.byGroup) : undefined;
+  const churn = churnToReport(i.lockedSplits, assignment.byGroup);
   let previous: { groups: number; kept: number; changed: number; new: number } | undefined;
   if (i.previousSplits) {
     const groups = [...classesByGroup.keys()];
@@ -169,7 +174,24 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
     resampledPieces: i.resampledPieces,
   });
   const perSplit = Object.fromEntries(SPLITS.map((s) => [s, records.filter((r) => r.split === s).length]));
-  return { records, failures, card, pairs, perSplit, assignment };
+  return { records, failures, card, pairs, perSplit, assignment, ...(churn ? { churn } : {}) };
+}
+
+/**
+ * The churn the card reports: against the lock's assignment when this one differs
+ * from it; when it is the same (a rerun), the churn the lock recorded, so that
+ * rebuilding a dataset gives the same bytes.
+ */
+export function churnToReport(locked: AssembleInput['lockedSplits'], now: ReadonlyMap<string, SplitName>): SplitChurn | undefined {
+  if (!locked) return undefined;
+  const same = locked.groups.size === now.size && [...now].every(([g, s]) => locked.groups.get(g) === s);
+  if (same) return isChurn(locked.churn) ? locked.churn : undefined;
+  return splitChurn(locked.groups, now);
+}
+
+function isChurn(x: unknown): x is SplitChurn {
+  const c = x as SplitChurn;
+  return typeof c === 'object' && c !== null && typeof c.groups === 'number' && typeof c.kept === 'number' && typeof c.moved === 'number' && typeof c.new === 'number' && typeof c.gone === 'number' && typeof c.movedBy === 'object';
 }
 
 /** Compares an assignment with the last build's. */

@@ -94,7 +94,7 @@ export function buildCard(i: CardInputs) {
         rule: SPLIT_RULE,
         bound: { maxDeviation: BALANCE_BOUND, minGroups: BALANCE_MIN_GROUPS },
         balance: i.assignment.balance,
-        movedFromStart: i.assignment.moves.length,
+        awayFromHash: i.assignment.moves.length,
         moves: i.assignment.moves.slice(0, MOVES_LISTED),
         unrepairable: i.assignment.unrepairable,
         ...(i.previousSplits ? { previousIndex: i.previousSplits } : {}),
@@ -173,7 +173,7 @@ export function renderCardMarkdown(card: Card): string {
     const dirs = Object.entries(a.movedBy).map(([k, n]) => `${k} ${n}`).join(', ');
     lines.push(`- against the last build (the lock): ${a.groups} group(s) then; ${a.kept} kept their split, ${a.moved} moved${dirs ? ` (${dirs})` : ''}; ${a.new} new, ${a.gone} gone`);
   } else lines.push('- no previous assignment in the lock: every group started where its hash sends it');
-  lines.push(`- ${c.splitPolicy.movedFromStart} group(s) placed away from where they started, for balance${c.splitPolicy.movedFromStart > c.splitPolicy.moves.length ? ` (the first ${c.splitPolicy.moves.length} listed in card.json)` : ''}`);
+  lines.push(`- ${c.splitPolicy.awayFromHash} group(s) sit away from the split their hash gives, for balance${c.splitPolicy.awayFromHash > c.splitPolicy.moves.length ? ` (the first ${c.splitPolicy.moves.length} listed in card.json)` : ''}`);
   if (c.splitPolicy.unrepairable.length) for (const u of c.splitPolicy.unrepairable) lines.push(`- class ${u.label} has ${u.groups} group(s), too few for every split; absent from ${u.missing.join(', ')} (stability kept)`);
   const prev = (c.splitPolicy as { previousIndex?: { groups: number; kept: number; changed: number; new: number } }).previousIndex;
   if (prev) lines.push(`- kept the splits of a previous index (${prev.groups} group(s)): ${prev.kept} kept their split, ${prev.changed} changed, ${prev.new} new group(s) placed by the rule`);

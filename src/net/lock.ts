@@ -19,6 +19,8 @@ export interface LockedSplits {
   groupBy: string;
   fractions: { train: number; val: number; test: number };
   groups: Record<string, 'train' | 'val' | 'test'>;
+  /** How this assignment differed from the one before it, when it was made (carried over by reruns that change nothing). */
+  churn?: unknown;
 }
 
 export function emptyLock(): LockFile {
@@ -44,17 +46,18 @@ export function lockFrom(facts: Iterable<ResponseFacts>, splits?: LockedSplits):
   }
   if (!splits) return { lockVersion: LOCK_VERSION, entries };
   const groups = Object.fromEntries(Object.entries(splits.groups).sort((a, b) => byString(a[0], b[0])));
-  return { lockVersion: LOCK_VERSION, entries, splits: { seed: splits.seed, groupBy: splits.groupBy, fractions: { train: splits.fractions.train, val: splits.fractions.val, test: splits.fractions.test }, groups } };
+  const { seed, groupBy, fractions: f, churn } = splits;
+  return { lockVersion: LOCK_VERSION, entries, splits: { seed, groupBy, fractions: { train: f.train, val: f.val, test: f.test }, groups, ...(churn !== undefined ? { churn } : {}) } };
 }
 
-/** The previous split of every group, when the lock has one made under these settings. */
-export function lockedSplits(lock: LockFile | undefined, seed: string, groupBy: string, fractions: { train: number; val: number; test: number }): Map<string, 'train' | 'val' | 'test'> | undefined {
+/** The previous split of every group, when the lock has one made under these settings, and the churn it recorded. */
+export function lockedSplits(lock: LockFile | undefined, seed: string, groupBy: string, fractions: { train: number; val: number; test: number }): { groups: Map<string, 'train' | 'val' | 'test'>; churn?: unknown } | undefined {
   const s = lock?.splits;
   if (!s || typeof s !== 'object' || s.seed !== seed || s.groupBy !== groupBy) return undefined;
   if (!s.fractions || s.fractions.train !== fractions.train || s.fractions.val !== fractions.val || s.fractions.test !== fractions.test) return undefined;
   const out = new Map<string, 'train' | 'val' | 'test'>();
   for (const [g, split] of Object.entries(s.groups ?? {})) if (split === 'train' || split === 'val' || split === 'test') out.set(g, split);
-  return out;
+  return { groups: out, ...(s.churn !== undefined ? { churn: s.churn } : {}) };
 }
 
 export function serialiseLock(lock: LockFile): string {

@@ -74,7 +74,7 @@ export const recipeSchema = {
       type: 'object',
       additionalProperties: false,
       default: {},
-      description: 'Group-aware, stable, stratified train/validation/test assignment.',
+      description: 'Group-aware, balanced, stable train/validation/test assignment (see the README, "How splits are made").',
       properties: {
         fractions: {
           type: 'object',
@@ -82,7 +82,7 @@ export const recipeSchema = {
           required: ['train', 'val', 'test'],
           default: { train: 0.8, val: 0.1, test: 0.1 },
           properties: { train: { type: 'number', minimum: 0, maximum: 1 }, val: { type: 'number', minimum: 0, maximum: 1 }, test: { type: 'number', minimum: 0, maximum: 1 } },
-          description: 'Shares of groups per split; must sum to 1.',
+          description: 'Target share of each class\'s patches per split (whole groups go to one split); must sum to 1.',
         },
         groupBy: { enum: ['manifest', 'canvas', 'annotation'], default: 'canvas', description: 'What keeps patches together in one split.' },
       },

@@ -30,7 +30,10 @@ export interface ClassBalance {
 
 export interface SplitAssignment {
   byGroup: Map<string, SplitName>;
-  /** Groups placed away from where they started (their hash, or the previous assignment), with the reason. */
+  /**
+   * Groups (not pinned) that sit away from the split their hash gives, with the
+   * reason: a property of the assignment itself, whatever it started from.
+   */
   moves: SplitMove[];
   /** Classes that could not be present in every split with a positive fraction (too few groups). */
   unrepairable: { label: string; missing: SplitName[]; groups: number }[];
@@ -73,6 +76,7 @@ interface State {
   readonly u: number;
   readonly classes: readonly (readonly [number, number])[]; // [class index, patches]
   readonly start: SplitName;
+  readonly home: SplitName;
   readonly anchored: boolean;
   readonly pinned: boolean;
   split: SplitName;
@@ -118,7 +122,7 @@ export function assignSplits(groups: readonly GroupInfo[], seed: string, f: Reco
         .filter(([, n]) => n > 0)
         .map(([c, n]) => [cIndex.get(c)!, n] as const)
         .sort((a, b) => a[0] - b[0]);
-      return { key: g.key, u, classes, start, anchored, pinned, split: start };
+      return { key: g.key, u, classes, start, home, anchored, pinned, split: start };
     });
 
   // A rerun over the same groups keeps the previous assignment as it is: the
@@ -311,8 +315,8 @@ export function assignSplits(groups: readonly GroupInfo[], seed: string, f: Reco
     });
   }
   const moves: SplitMove[] = states
-    .filter((g) => g.split !== g.start)
-    .map((g) => ({ group: g.key, from: g.start, to: g.split, because: reasonFor(g, labels) }));
+    .filter((g) => !g.pinned && g.split !== g.home)
+    .map((g) => ({ group: g.key, from: g.home, to: g.split, because: reasonFor(g, labels) }));
   return { byGroup, moves, unrepairable, pinned: states.filter((g) => g.pinned).length, balance };
 }
 

@@ -152,23 +152,30 @@ describe('building a dataset from nock-served IIIF fixtures', () => {
     await expect(runRecipe(both, { cacheDir: join(box.dir, 'cache'), keepSplits: join(box.dir, 'no-such-index.jsonl') })).rejects.toThrow(/no-such-index\.jsonl at \/: cannot read the previous index for --keep-splits/);
   }, 60_000);
 
-  it('adding a source moves no existing patch between splits', async () => {
+  it('adding a source to a recipe moves few existing groups (as the card reports, none from test to train), and a rerun moves none', async () => {
     const boards = scenarioBoards();
     serveScenario(boards);
-    const east = await scenarioRecipe(join(box.dir, 'one'), {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }]);
+    const dir = join(box.dir, 'grow');
+    const east = await scenarioRecipe(dir, {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }]);
     await runRecipe(east, { cacheDir: join(box.dir, 'cache') });
-    const before = new Map((await readIndex(east.output)).map((r) => [r.id, r.split]));
-    const both = await scenarioRecipe(join(box.dir, 'two'), {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }, { manifest: `${BASE}/manifests/west-cabinet.json` }]);
+    const before = new Map((await readIndex(east.output)).map((r) => [r.group, r.split]));
+    const firstCard = JSON.parse(await readFile(join(east.output, 'card.json'), 'utf8'));
+    expect(firstCard.composition.splitPolicy.againstLock).toBeNull();
+    // The same recipe file, one source more: the lock beside it holds the first build's splits.
+    const both = await scenarioRecipe(dir, {}, [{ manifest: `${BASE}/manifests/east-cabinet.json` }, { manifest: `${BASE}/manifests/west-cabinet.json` }]);
     const { build } = await runRecipe(both, { cacheDir: join(box.dir, 'cache') });
     expect(build.failures).toBe(0);
     const after = await readIndex(both.output);
-    let common = 0;
-    for (const r of after) {
-      if (!before.has(r.id)) continue;
-      common++;
-      expect(r.split).toBe(before.get(r.id));
-    }
-    expect(common).toBeGreaterThan(10);
-    expect(after.length).toBeGreaterThan(before.size);
+    const afterSplit = new Map(after.map((r) => [r.group, r.split]));
+    const moved = [...before].filter(([g, s]) => afterSplit.get(g) !== s);
+    expect(moved.filter(([g, s]) => s === 'test' && afterSplit.get(g) === 'train')).toEqual([]);
+    expect(before.size).toBeGreaterThanOrEqual(3);
+    expect(afterSplit.size).toBeGreaterThan(before.size);
+    const card = JSON.parse(await readFile(join(both.output, 'card.json'), 'utf8'));
+    expect(card.composition.splitPolicy.againstLock).toMatchObject({ groups: before.size, moved: moved.length, kept: before.size - moved.length, new: afterSplit.size - before.size, gone: 0 });
+    // A rerun over the same sources moves nothing and writes the same bytes.
+    const tree = await hashTree(both.output);
+    await runRecipe(both, { cacheDir: join(box.dir, 'cache') });
+    expect(await hashTree(both.output)).toEqual(tree);
   }, 60_000);
 });

@@ -39,6 +39,14 @@ describe('the demo', () => {
     expect(records.some((r) => r.manifest.endsWith('/p2/manifests/north-cabinet.json') && r.tags.some((t) => t.raw?.startsWith('<p>brush direction')))).toBe(true);
     const card = await readFile(join(a.dataset, 'card.md'), 'utf8');
     expect(card).toContain('## Collection process');
+    // Every class's realised share of patches per split within ±0.03 of its target, counted from the index itself.
+    const f = { train: 0.7, val: 0.15, test: 0.15 } as const;
+    for (const c of classes) {
+      const ofClass = records.filter((r) => r.label === c);
+      expect(new Set(ofClass.map((r) => r.group)).size, `${c} groups`).toBeGreaterThanOrEqual(20);
+      for (const s of ['train', 'val', 'test'] as const) expect(Math.abs(ofClass.filter((r) => r.split === s).length / ofClass.length - f[s]), `${c} in ${s}`).toBeLessThanOrEqual(0.03);
+    }
+    expect(card).not.toContain('OUTSIDE the bound');
     expect(Object.keys(JSON.parse(await readFile(join(a.dataset, 'lock.json'), 'utf8')).entries).length).toBeGreaterThan(100);
     const ha = await hashTree(a.dataset), hb = await hashTree(b.dataset);
     expect([...hb.entries()]).toEqual([...ha.entries()]);
