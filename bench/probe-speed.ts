@@ -1,11 +1,18 @@
 /**
  * Probe speed: descriptors (LBP 8/1 and 16/2, GLCM, colour) for N synthetic
  * 64-px RGB patches, against a raw loop over the same pixels (grey conversion
- * and a 256-bin histogram: the least any descriptor must do). Prints JSON.
+ * and a 256-bin histogram: the least any descriptor must do), then the whole
+ * probe path on N PNG files (decode and describe on the worker pool, one thread
+ * per core). Prints JSON.
  *   tsx bench/probe-speed.ts [N=100000]
  */
 import { performance } from 'node:perf_hooks';
+import { mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { availableParallelism, tmpdir } from 'node:os';
+import { join } from 'node:path';
+import sharp from 'sharp';
 import { describePatch } from '../src/probe/describe.ts';
+import { describeFiles } from '../src/probe/describe-pool.ts';
 
 const N = Number(process.argv[2] ?? 100_000);
 const S = 64;
@@ -43,4 +50,18 @@ for (const d of data) {
   dims = f.lbp8.length + f.lbp16.length + f.glcm.length + f.colour.length;
 }
 const ours = performance.now() - t;
-console.log(JSON.stringify({ patches: N, size: S, dims, rawMs: Math.round(raw), describeMs: Math.round(ours), ratio: +(ours / raw).toFixed(2), memoryFloat32Mb: +((N * dims * 4) / 2 ** 20).toFixed(1), sink }));
+// The same patches as PNG files, through the pool.
+const dir = await mkdtemp(join(tmpdir(), 'swatchbook-probe-speed-'));
+const pngs = await Promise.all(data.slice(0, 64).map((d) => sharp(Buffer.from(d), { raw: { width: S, height: S, channels: 3 } }).png().toBuffer()));
+const files = data.map((_, i) => join(dir, `${i}.png`));
+for (let i = 0; i < N; i++) await writeFile(files[i]!, pngs[i % 64]!);
+t = performance.now();
+await describeFiles(files);
+const pool = performance.now() - t;
+await rm(dir, { recursive: true, force: true });
+console.log(JSON.stringify({
+  patches: N, size: S, dims, threads: availableParallelism(),
+  rawMs: Math.round(raw), describeMs: Math.round(ours), describeRatioToRaw: +(ours / raw).toFixed(2),
+  filesDecodedAndDescribedOnPoolMs: Math.round(pool), poolRatioToRaw: +(pool / raw).toFixed(2),
+  descriptorMatrixFloat32Mb: +((N * dims * 4) / 2 ** 20).toFixed(1), sink,
+}));

@@ -1,9 +1,8 @@
 import { mkdir, readFile, rename, writeFile } from 'node:fs/promises';
 import { basename, dirname, join, resolve } from 'node:path';
 import { UsageError } from './errors.ts';
-import { decodeRgb } from './image/pixels.ts';
 import { parseIndex } from './dataset/records.ts';
-import { describePatch } from './probe/describe.ts';
+import { describeFiles } from './probe/describe-pool.ts';
 import { probe, ProbePatch, ProbeReport } from './probe/probe.ts';
 
 /** Where the probe writes for a dataset folder: beside it, never inside the hashed folder. */
@@ -25,13 +24,8 @@ export async function runProbe(dataset: string, outDir = defaultProbeDir(dataset
     throw new UsageError(`${dataset} is not a swatchbook dataset (index.jsonl and card.json are needed)`);
   }
   const records = parseIndex(index).filter((r) => r.split === 'train' || r.split === 'test');
-  const patches: ProbePatch[] = [];
-  let done = 0;
-  for (const r of records) {
-    const rgb = await decodeRgb(await readFile(join(dataset, r.file)));
-    patches.push({ id: r.id, split: r.split, label: r.label, phash: r.phash, features: describePatch(rgb) });
-    onProgress?.(++done, records.length);
-  }
+  const features = await describeFiles(records.map((r) => join(dataset, r.file)), { ...(onProgress ? { onProgress } : {}) });
+  const patches: ProbePatch[] = records.map((r, i) => ({ id: r.id, split: r.split, label: r.label, phash: r.phash, features: features[i]! }));
   const report = probe(patches, { seed: card.collection?.seed ?? 'swatchbook', maxHashDistance: card.collection?.recipe?.dedupe?.maxDistance ?? 4 });
   await mkdir(outDir, { recursive: true });
   const file = join(outDir, 'probe.json');
