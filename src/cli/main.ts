@@ -238,19 +238,22 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
 
   program.command('probe <dataset>').description('texture descriptors and retrieval scores: can the classes be told apart, and does test leak from train? Writes probe.json beside the dataset')
     .option('--out <dir>', 'folder for probe.json (default: <dataset>-probe beside the dataset)')
+    .option('--queries <dir>', 'outside images in class subfolders (at the dataset\'s scale), cut into patches that query the training patches')
     .option('--json', 'print the report as JSON')
     .option('--quiet', 'print nothing but errors')
-    .action(async (dataset: string, o: { out?: string; json?: boolean; quiet?: boolean }) => {
+    .action(async (dataset: string, o: { out?: string; queries?: string; json?: boolean; quiet?: boolean }) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const [{ runProbe }, { probeHeadline }] = await Promise.all([import('../run-probe.ts'), import('../probe/probe.ts')]);
-      const { report, file } = await runProbe(resolve(dataset), o.out ? resolve(o.out) : undefined, (d, t) => rep.progress('describe', d, t));
+      const { report, file } = await runProbe(resolve(dataset), o.out ? resolve(o.out) : undefined, (d, t) => rep.progress('describe', d, t), o.queries ? { queries: resolve(o.queries) } : {});
       const { all, separable } = probeHeadline(report);
+      const q = report.queries;
       print(o, [
         `${report.patches.train} training and ${report.patches.test} test patches, ${report.patches.classes.length} classes${report.gallery.exact ? '' : ` (gallery sampled: ${report.gallery.size} of ${report.gallery.sampledFrom})`}`,
         ...report.retrieval.filter((r) => r.direction === 'test→train').map((r) => `  ${r.descriptor.padEnd(6)} ${r.distance.padEnd(9)} P@1 ${r.overall.p1.toFixed(3)}  P@10 ${r.overall.p10.toFixed(3)}  mAP ${r.overall.map.toFixed(3)}`),
         `  baselines: random P@1 ${report.baselines.random.p1.toFixed(3)}, majority class (${report.baselines.majority.class}) P@1 ${report.baselines.majority.p1.toFixed(3)}`,
         all ? `separable: ${separable ? 'above' : 'not above'} the random baseline` : 'no test patches to query with',
         `leakage: ${report.leakage.flagged.length} test patch(es) flagged${report.leakage.flagged.length ? `: ${report.leakage.flagged.slice(0, 5).map((f) => `${f.test}~${f.train}`).join(', ')}` : ''}`,
+        ...(q ? [`queries (${q.folder}): ${q.patches} patches from ${q.images} images query training: P@1 ${q.overall.p1.toFixed(3)}  P@10 ${q.overall.p10.toFixed(3)}  mAP ${q.overall.map.toFixed(3)} (random ${q.randomBaseline.toFixed(3)})${q.unknownClasses.length ? `; classes not in the dataset: ${q.unknownClasses.join(', ')}` : ''}`] : []),
         `report: ${file}`,
       ].join('\n'), report);
     });

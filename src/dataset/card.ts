@@ -29,6 +29,14 @@ export interface CardInputs {
   churn?: SplitChurn;
 }
 
+/** Near-duplicate pairs whose patches ended in different splits (none, when merging did its work), with both ids. */
+function acrossSplits(pairs: readonly NearDuplicatePair[], records: readonly IndexRecord[]) {
+  const split = new Map(records.map((r) => [r.id, r.split]));
+  return pairs
+    .filter((p) => split.get(p.a) !== undefined && split.get(p.a) !== split.get(p.b))
+    .map((p) => ({ a: p.a, b: p.b, distance: p.distance, splitA: split.get(p.a)!, splitB: split.get(p.b)! }));
+}
+
 export const SPLIT_RULE =
   'balanced and stable: each group starts in its split of the last build (from the lock) or where hash(seed, group) sends it; then the fewest groups, nearest a boundary, move until every class with at least 20 groups has each split\'s share of its patches within 0.03 of the target; a group of the last build never moves from test to train';
 const MOVES_LISTED = 50;
@@ -88,7 +96,7 @@ export function buildCard(i: CardInputs) {
       rights: count(i.records, (r) => r.rights ?? '(none)'),
       regions: { planned: i.plan.regions.length, skipped: count(i.plan.skipped, (s) => s.reason) },
       negatives: i.plan.negatives,
-      nearDuplicates: { pairs: i.pairs.length, mergedGroups: i.mergedGroups, examples: i.pairs.slice(0, 20) },
+      nearDuplicates: { pairs: i.pairs.length, mergedGroups: i.mergedGroups, examples: i.pairs.slice(0, 20), acrossSplits: acrossSplits(i.pairs, i.records) },
       groups: { count: groups.size, groupBy: i.recipe.split.groupBy },
       splitPolicy: {
         rule: SPLIT_RULE,
@@ -167,6 +175,15 @@ export function renderCardMarkdown(card: Card): string {
     const note = !b ? '' : b.bound ? (b.deviation <= c.splitPolicy.bound.maxDeviation ? ' (within the bound)' : ' (OUTSIDE the bound)') : ' (too few groups for the bound; as close as their sizes allow)';
     return [cls, ...SPLITS.map((s) => c.realisedFractions[cls][s]), b?.groups ?? 0, b ? `${b.deviation}${note}` : '-'];
   }));
+  lines.push('Patches per source manifest:', '');
+  table(['manifest', 'patches'], Object.entries(c.perSource).map(([m, v]) => [m, Object.entries(v).map(([k, n]) => `${k} ${n}`).join(', ')]));
+  lines.push('Rights of the patches:', '');
+  table(['rights', 'patches'], Object.entries(c.rights));
+  lines.push(`Regions planned: ${c.regions.planned}. Skipped: ${Object.entries(c.regions.skipped).map(([k, n]) => `${k} ${n}`).join(', ') || 'none'}.`, '');
+  lines.push(`Negatives: wanted ${c.negatives.wanted}, planned ${c.negatives.planned}, borrowed from other canvases of the same group ${c.negatives.borrowedWithinGroup}, short by ${c.negatives.shortfall}.`, '');
+  lines.push(`Near-duplicates across groups: ${c.nearDuplicates.pairs} pairs; ${c.nearDuplicates.mergedGroups} groups merged into others before splitting.`);
+  const across = c.nearDuplicates.acrossSplits;
+  lines.push(`Leakage by difference hash: ${across.length} near-duplicate pair(s) in different splits${across.length ? `: ${across.slice(0, 20).map((p) => `${p.a} (${p.splitA}) ~ ${p.b} (${p.splitB}), distance ${p.distance}`).join('; ')}` : ''}. The descriptor-based leakage alarm (a test patch unusually close to a training patch, with both ids) is in \`probe.json\` beside the dataset (\`swatchbook probe\`, run after every build unless \`--no-probe\`).`, '');
   lines.push(`Split policy: ${c.splitPolicy.rule}.`);
   const a = c.splitPolicy.againstLock;
   if (a) {

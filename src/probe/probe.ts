@@ -220,3 +220,60 @@ export function probeHeadline(report: ProbeReport): { all?: RetrievalResult; sep
   const all = report.retrieval.find((r) => r.descriptor === 'all' && r.direction === 'test→train');
   return { ...(all ? { all } : {}), separable: !!all && all.overall.p1 > report.baselines.random.p1, flagged: report.leakage.flagged.length };
 }
+
+export interface QueryPatch {
+  /** Class folder the patch came from. */
+  label: string;
+  /** Source file (relative to the queries folder) and the patch's origin in it. */
+  file: string;
+  x: number;
+  y: number;
+  features: PatchDescriptors;
+}
+
+export interface CrossDomainReport {
+  images: number;
+  patches: number;
+  /** Query classes with no training patches: reported, not scored. */
+  unknownClasses: string[];
+  /** Dataset classes no query folder offered. */
+  classesWithoutQueries: string[];
+  overall: Scores;
+  perClass: Record<string, Scores>;
+  /** The same queries against a random ranking: each class's share of the gallery. */
+  randomBaseline: number;
+}
+
+/**
+ * Cross-domain retrieval (pure): patches cut from outside images (photographs of
+ * real materials, say) query the training patches by the concatenated descriptors,
+ * standardised on training as in the probe, Euclidean distance. Relevant = same
+ * class name. Answers whether such images retrieve painted examples of their class.
+ */
+export function crossDomain(queries: readonly QueryPatch[], patches: readonly ProbePatch[], images: number): CrossDomainReport {
+  const gallery = [...patches].filter((p) => p.split === 'train').sort((a, b) => byString(a.id, b.id));
+  const galleryClasses = new Set(gallery.map((p) => p.label));
+  const sorted = [...queries].sort((a, b) => byString(a.label, b.label) || byString(a.file, b.file) || a.y - b.y || a.x - b.x);
+  const known = sorted.filter((q) => galleryClasses.has(q.label));
+  const std = standardiser(gallery.map((p) => concat(p.features, DESCRIPTORS)));
+  const z = gallery.map((p) => std(concat(p.features, DESCRIPTORS)));
+  const counts = new Map<string, number>();
+  for (const p of gallery) counts.set(p.label, (counts.get(p.label) ?? 0) + 1);
+  const rows = known.map((q) => {
+    const zq = std(concat(q.features, DESCRIPTORS));
+    const d = z.map((g, i) => ({ i, d: euclidean(zq, g) })).sort((a, b) => a.d - b.d || a.i - b.i);
+    return { label: q.label, ranked: d.map((x) => gallery[x.i]!.label), relevantTotal: counts.get(q.label) ?? 0 };
+  });
+  const perClass: Record<string, Scores> = {};
+  for (const c of [...new Set(known.map((q) => q.label))].sort(byString)) perClass[c] = score(rows.filter((r) => r.label === c));
+  const random = known.length ? known.reduce((a, q) => a + (counts.get(q.label) ?? 0) / gallery.length, 0) / known.length : 0;
+  return {
+    images,
+    patches: queries.length,
+    unknownClasses: [...new Set(sorted.filter((q) => !galleryClasses.has(q.label)).map((q) => q.label))].sort(byString),
+    classesWithoutQueries: [...galleryClasses].filter((c) => !known.some((q) => q.label === c)).sort(byString),
+    overall: score(rows),
+    perClass,
+    randomBaseline: Math.round(random * 1e6) / 1e6,
+  };
+}

@@ -39,6 +39,7 @@ describe('the demo', () => {
     expect(records.some((r) => r.manifest.endsWith('/p2/manifests/north-cabinet.json') && r.tags.some((t) => t.raw?.startsWith('<p>brush direction')))).toBe(true);
     const card = await readFile(join(a.dataset, 'card.md'), 'utf8');
     expect(card).toContain('## Collection process');
+    for (const part of ['Patches per source manifest:', 'Rights of the patches:', 'Regions planned:', 'Negatives: wanted', 'Near-duplicates across groups:', 'Split policy:']) expect(card).toContain(part);
     // Every class's realised share of patches per split within ±0.03 of its target, counted from the index itself.
     const f = { train: 0.7, val: 0.15, test: 0.15 } as const;
     for (const c of classes) {
@@ -47,6 +48,13 @@ describe('the demo', () => {
       for (const s of ['train', 'val', 'test'] as const) expect(Math.abs(ofClass.filter((r) => r.split === s).length / ofClass.length - f[s]), `${c} in ${s}`).toBeLessThanOrEqual(0.03);
     }
     expect(card).not.toContain('OUTSIDE the bound');
+    // near-duplicates exist across boards, and merging kept every pair inside one split
+    const cardJson = JSON.parse(await readFile(join(a.dataset, 'card.json'), 'utf8'));
+    expect(cardJson.composition.nearDuplicates.pairs).toBeGreaterThan(0);
+    const splitOf = new Map(records.map((r) => [r.id, r.split]));
+    for (const p of cardJson.composition.nearDuplicates.examples) expect(splitOf.get(p.b)).toBe(splitOf.get(p.a));
+    expect(cardJson.composition.nearDuplicates.acrossSplits).toEqual([]);
+    expect(card).toContain('Leakage by difference hash: 0 near-duplicate pair(s) in different splits');
     expect(Object.keys(JSON.parse(await readFile(join(a.dataset, 'lock.json'), 'utf8')).entries).length).toBeGreaterThan(100);
     const ha = await hashTree(a.dataset), hb = await hashTree(b.dataset);
     expect([...hb.entries()]).toEqual([...ha.entries()]);

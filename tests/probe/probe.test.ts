@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { cp, readFile, rm, writeFile } from 'node:fs/promises';
+import { cp, mkdir, readFile, rm, writeFile } from 'node:fs/promises';
+import sharp from 'sharp';
 import { join } from 'node:path';
 import { probe, ProbePatch, standardiser } from '../../src/probe/probe.ts';
 import { describePatch } from '../../src/probe/describe.ts';
@@ -86,5 +87,41 @@ describe('swatchbook probe <dataset>', () => {
     await rm(`${recipe.output}-probe`, { recursive: true });
     expect(await main(['build', recipe.file, '--no-probe', '--quiet'], io)).toBe(0);
     await expect(readFile(join(`${recipe.output}-probe`, 'probe.json'))).rejects.toThrow();
+  }, 120_000);
+
+  it('--queries: outside images in class folders, cut at the patch size, retrieve their class; classes the dataset lacks are named', async () => {
+    serveScenario(scenarioBoards());
+    const recipe = await scenarioRecipe(join(box.dir, 'q'));
+    await runRecipe(recipe, { cacheDir: join(box.dir, 'cache') });
+    const queries = join(box.dir, 'photos');
+    const paint = async (kind: 'graining' | 'marbling' | 'gilding', file: string, seed: number) => {
+      const w = 128, h = 96, data = Buffer.alloc(w * h * 3);
+      for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) data.set(kind === 'gilding' ? [(x * 7919 + y * 104729 + seed) % 251, (x * 31 + y * 17) % 241, 60] : materialColour(kind, x, y, seed), (y * w + x) * 3);
+      await mkdir(join(queries, file.split('/')[0]!), { recursive: true });
+      await sharp(data, { raw: { width: w, height: h, channels: 3 } }).png().toFile(join(queries, file));
+    };
+    await paint('graining', 'graining/oak-photo.png', 901);
+    await paint('marbling', 'marbling/marble-photo.png', 902);
+    await paint('gilding', 'granite/not-in-the-dataset.png', 903);
+    await writeFile(join(queries, 'graining', 'notes.txt'), 'not an image: ignored');
+    let out = '';
+    const io = { stdout: { write: (s: string) => ((out += s), true) } as unknown as NodeJS.WriteStream, stderr: { write: () => true } as unknown as NodeJS.WriteStream };
+    expect(await main(['probe', recipe.output, '--queries', queries, '--json'], io)).toBe(0);
+    const q = JSON.parse(out).queries;
+    // 128×96 cut at the recipe's 32-px patch size: 4 × 3 = 12 patches per image, 3 images
+    expect(q).toMatchObject({ folder: 'photos', patchSize: 32, images: 3, patches: 36, unknownClasses: ['granite'] });
+    expect(Object.keys(q.perClass)).toEqual(['graining', 'marbling']);
+    expect(q.perClass.graining.queries).toBe(12);
+    expect(q.overall.p1).toBeGreaterThan(q.randomBaseline);
+    // the user's folder and files: one clear message, exit 2
+    let err = '';
+    const errIo = { ...io, stderr: { write: (s: string) => ((err += s), true) } as unknown as NodeJS.WriteStream };
+    expect(await main(['probe', recipe.output, '--queries', join(box.dir, 'nowhere')], errIo)).toBe(2);
+    expect(err).toContain(join(box.dir, 'nowhere'));
+    await writeFile(join(queries, 'marbling', 'broken.png'), 'this is not a PNG');
+    err = '';
+    expect(await main(['probe', recipe.output, '--queries', queries], errIo)).toBe(2);
+    expect(err).toContain(join(queries, 'marbling', 'broken.png'));
+    expect(err).not.toMatch(/\n\s+at /); // no stack trace
   }, 120_000);
 });
