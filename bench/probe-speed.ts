@@ -12,7 +12,7 @@ import { availableParallelism, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
 import { describePatch } from '../src/probe/describe.ts';
-import { describeFiles } from '../src/probe/describe-pool.ts';
+import { describeFiles } from '../src/image/describe-pool.ts';
 
 const N = Number(process.argv[2] ?? 100_000);
 const S = 64;

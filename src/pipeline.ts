@@ -4,6 +4,7 @@ import { FetchError, InputError, UsageError } from './errors.ts';
 import { SPLITS, type SplitName } from './split/assign.ts';
 import { ContentCache } from './net/cache.ts';
 import { Fetcher, FetchEvent, FetchMode } from './net/fetcher.ts';
+import { canvasFacts } from './dataset/canvas-facts.ts';
 import { lockFrom, lockedSplits, readLock, writeLock, LockFile } from './net/lock.ts';
 import { DEFAULT_RETRY_POLICY } from './net/retry-policy.ts';
 import { harvestCrops, HarvestResult } from './harvest/harvest.ts';
@@ -96,10 +97,20 @@ export async function planRecipe(recipe: Recipe, opts: RunOptions = {}): Promise
   return { sources, plan: planDataset(recipe, sources), fetcher };
 }
 
+/**
+ * Canvas thumbnails for the report: small crops of each painted image, fetched
+ * and locked like any request. One that fails leaves its map without a picture;
+ * it is no failure of the dataset.
+ */
+async function harvestThumbnails(plan: DatasetPlan, fetcher: Fetcher): Promise<void> {
+  await harvestCrops(canvasFacts(plan).flatMap((c) => (c.thumbnail ? [c.thumbnail.crop] : [])), fetcher);
+}
+
 /** Plans, then fetches every crop piece into the cache, and writes the lock beside the recipe. */
 export async function harvestRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { harvest: HarvestResult }> {
   const planned = await planRecipe(recipe, opts);
   const harvest = await harvestCrops(planned.plan.crops, planned.fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
+  await harvestThumbnails(planned.plan, planned.fetcher);
   if ((opts.mode ?? 'online') !== 'frozen') {
     // The harvest assigns no splits: the last build's stay in the lock.
     const before = await readLock(lockPathFor(recipe));
@@ -130,6 +141,7 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
   const planned = await planRecipe(recipe, opts);
   const { plan, sources, fetcher } = planned;
   const harvest = await harvestCrops(plan.crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
+  await harvestThumbnails(plan, fetcher);
   const tx = await FolderTransaction.begin(recipe.output);
   let build: BuildSummary;
   let lock: LockFile;

@@ -4,7 +4,7 @@ import { InputError, UsageError } from './errors.ts';
 import { decodeRgb, extractRgb } from './image/pixels.ts';
 import { describePatch } from './probe/describe.ts';
 import { parseIndex } from './dataset/records.ts';
-import { describeFiles } from './probe/describe-pool.ts';
+import { describeFiles } from './image/describe-pool.ts';
 import { crossDomain, CrossDomainReport, probe, ProbePatch, ProbeReport, QueryPatch } from './probe/probe.ts';
 import { byString, seededUnit } from './util/hash.ts';
 

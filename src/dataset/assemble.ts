@@ -9,6 +9,7 @@ import { assignSplits, SplitAssignment, SplitName, SPLITS } from '../split/assig
 import { mergeGroups, nearDuplicatePairs, NearDuplicatePair } from '../split/near-duplicates.ts';
 import { byString } from '../util/hash.ts';
 import { buildCard, Card } from './card.ts';
+import { canvasFacts, CanvasFacts } from './canvas-facts.ts';
 import type { IndexRecord } from './records.ts';
 
 /** The versions a dataset records (no wall-clock time, no machine name). */
@@ -64,6 +65,10 @@ export interface AssembledDataset {
   assignment: SplitAssignment;
   /** Against the lock's assignment (what the lock records with the new one). */
   churn?: SplitChurn;
+  /** Every canvas that contributed patches: place, painted area, regions and thumbnail request (`canvases.json`). */
+  canvases: CanvasFacts[];
+  /** Every region or patch the plan skipped, with the reason (`skipped.jsonl`). */
+  skipped: DatasetPlan['skipped'];
 }
 
 /**
@@ -174,7 +179,8 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
     resampledPieces: i.resampledPieces,
   });
   const perSplit = Object.fromEntries(SPLITS.map((s) => [s, records.filter((r) => r.split === s).length]));
-  return { records, failures, card, pairs, perSplit, assignment, ...(churn ? { churn } : {}) };
+  const skipped = [...plan.skipped].sort((a, b) => byString(a.reason, b.reason) || byString(a.key, b.key) || byString(a.detail, b.detail));
+  return { records, failures, card, pairs, perSplit, assignment, ...(churn ? { churn } : {}), canvases: canvasFacts(plan), skipped };
 }
 
 /**

@@ -16,7 +16,8 @@ import type { FolderTransaction } from './write-folder.ts';
  * Writes an assembled dataset into a folder transaction: moves each cut patch
  * from `staging/<id>.png` to `patches/<split>/<class>/<id>.png`, and writes the
  * index, split lists, per-split loader metadata, card, lock, provenance,
- * failures, attribution and the Croissant description. Only writes: every byte
+ * failures, attribution, the canvases (for the report), the skipped regions
+ * and the Croissant description. Only writes: every byte
  * was decided by the assemble stage (and `lockText`).
  */
 export async function writeDataset(tx: FolderTransaction, staging: string, data: AssembledDataset, lockText: string, recipe: Pick<Recipe, 'name' | 'description' | 'network' | 'shards'>, tool: ToolVersions): Promise<void> {
@@ -34,6 +35,8 @@ export async function writeDataset(tx: FolderTransaction, staging: string, data:
     ['provenance.jsonld', `${JSON.stringify(provenanceDocument(recipe.name, tool, records), null, 2)}\n`],
     ['failures.jsonl', failures.map((f) => JSON.stringify(f)).join('\n') + (failures.length ? '\n' : '')],
     ['ATTRIBUTION.md', attributionMarkdown(recipe.name, records)],
+    ['canvases.json', `${JSON.stringify(data.canvases, null, 2)}\n`],
+    ['skipped.jsonl', data.skipped.map((x) => JSON.stringify(x)).join('\n') + (data.skipped.length ? '\n' : '')],
   ]);
   const shards = recipe.shards ? await writeShards(tx, records, recipe.shards.patchesPerShard) : new Map<string, Buffer>();
   const croissant = croissantDocument({ card, description: recipe.description, records, files: new Map<string, string | Buffer>([...texts, ...shards]), ...(recipe.network.contact ? { contact: recipe.network.contact } : {}) });

@@ -41,6 +41,10 @@ export interface PatchPlan {
 export interface CropContext {
   manifestId: string;
   canvasId: string;
+  /** The canvas's place in its manifest (0-based), label and size in canvas units. */
+  canvas: { index: number; label: string; width: number; height: number };
+  /** Where the image is painted on the canvas, and which part of it. */
+  placement: Placement;
   service: ImageService;
   scale: ResolvedScale;
   provenance: Provenance;
@@ -167,7 +171,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
       return { skip: 'rights-excluded', detail: `rights ${provenance.rights ?? '(none)'} are not in rights.allow` };
     }
     return {
-      ctx: { manifestId: c.manifest.id, canvasId, service, scale, provenance, collections: c.entry.collections, ...(image.choice ? { choice: image.choice } : {}) },
+      ctx: { manifestId: c.manifest.id, canvasId, canvas: { index: c.manifest.canvases.indexOf(c.canvas), label: c.canvas.label, width: c.canvas.width, height: c.canvas.height }, placement, service, scale, provenance, collections: c.entry.collections, ...(image.choice ? { choice: image.choice } : {}) },
       placement,
       image,
       occluders: occludersOf(c.canvas.images, image),

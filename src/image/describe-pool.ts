@@ -1,6 +1,6 @@
 import { availableParallelism } from 'node:os';
 import { Worker } from 'node:worker_threads';
-import type { PatchDescriptors } from './describe.ts';
+import type { PatchDescriptors } from '../probe/describe.ts';
 
 /**
  * Describes patch files on a pool of worker threads (one per core, at most

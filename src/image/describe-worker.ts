@@ -4,8 +4,8 @@
  */
 import { parentPort } from 'node:worker_threads';
 import { readFile } from 'node:fs/promises';
-import { decodeRgb } from '../image/pixels.ts';
-import { describePatch } from './describe.ts';
+import { decodeRgb } from './pixels.ts';
+import { describePatch } from '../probe/describe.ts';
 
 parentPort!.on('message', async (msg: { job: number; files: string[] }) => {
   try {
