@@ -1,6 +1,6 @@
 import { Command, CommanderError, Option } from 'commander';
 import { mkdir, writeFile, access } from 'node:fs/promises';
-import { join, resolve } from 'node:path';
+import { dirname, join, resolve } from 'node:path';
 import { SwatchbookError, UsageError, redactUrl } from '../errors.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { RunOptions } from '../pipeline.ts';
@@ -181,26 +181,43 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       return { error: message };
     }
   };
+  /** Writes the visual report after a build (and its probe); a report that fails is a warning, never a failed build. */
+  const reportAfterBuild = async (dataset: string, cacheDir: string, rep: Reporter): Promise<{ file: string; tiles: number; footprints: number } | { error: string }> => {
+    try {
+      const { writeReport } = await import('../report/write-report.ts');
+      const r = await writeReport(dataset, { cacheDir });
+      return { file: r.file, tiles: r.tiles, footprints: r.footprints };
+    } catch (err) {
+      const message = redactUrl((err as Error).message ?? String(err));
+      rep.warn(`report: ${message}`);
+      return { error: message };
+    }
+  };
+  const reportLine = (r: Awaited<ReturnType<typeof reportAfterBuild>>) => ('error' in r ? `report: not written (${r.error})` : `report:    ${r.file}`);
   const probeLine = (p: Awaited<ReturnType<typeof probeAfterBuild>>) =>
     'error' in p ? `probe: not written (${p.error})` : `probe: ${p.separable ? 'classes separate above the random baseline' : 'classes do not separate above the random baseline'}; ${p.flagged} test patch(es) flagged for leakage; ${p.file}`;
 
   const buildLike = (name: string, description: string, defaultMode: FetchMode | undefined) =>
     shared(program.command(`${name} <recipe>`).description(description))
       .option('--no-probe', 'do not run the probe after the build')
-      .action(async (path: string, o: Shared & { probe?: boolean }) => {
+      .option('--no-report', 'do not write the visual report after the build')
+      .action(async (path: string, o: Shared & { probe?: boolean; report?: boolean }) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const recipe = await recipeWith(path, o);
       const mode = o.frozen || o.offline ? modeOf(o) : (defaultMode ?? 'online');
       const { runRecipe } = await pipeline();
       const { build } = await runRecipe(recipe, runOptions(o, rep, mode));
       const probed = o.probe === false ? undefined : await probeAfterBuild(build.out, rep);
+      const { defaultCacheDir } = await pipeline();
+      const reported = o.report === false ? undefined : await reportAfterBuild(build.out, o.cache ? resolve(o.cache) : defaultCacheDir(recipe), rep);
       print(o, [
         `${rep.bold(`${build.patches} patches`)} (train ${build.perSplit.train}, val ${build.perSplit.val}, test ${build.perSplit.test}) from ${build.crops} crops; ${build.nearDuplicatePairs} near-duplicate pair(s)`,
         `fetch: ${build.harvest.requests} request(s), ${build.harvest.fromCache} from the cache, ${build.harvest.retries} retries`,
         `dataset: ${build.out}  (card.md, index.jsonl, splits/, lock.json)`,
         build.failures ? `${build.failures} failure(s): see ${join(build.out, 'failures.jsonl')}` : 'no failures',
         ...(probed ? [probeLine(probed)] : []),
-      ].join('\n'), { ...build, ...(probed ? { probe: probed } : {}) });
+        ...(reported ? [reportLine(reported)] : []),
+      ].join('\n'), { ...build, ...(probed ? { probe: probed } : {}), ...(reported ? { report: reported } : {}) });
       if (build.failures) exitCode = 1;
     });
   buildLike('build', 'cut patches from the cache and write the dataset (never contacts a server)', 'offline');
@@ -258,6 +275,17 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       ].join('\n'), report);
     });
 
+  program.command('report <dataset>').description('write the visual report of a dataset (contact sheets, canvas maps, balance charts, near-duplicates, skips and failures) beside it')
+    .option('--out <dir>', 'folder of the report (default: <dataset>-report beside the dataset)')
+    .option('--cache <dir>', 'cache holding the canvas thumbnails (default: .swatchbook-cache beside the dataset)')
+    .option('--json', 'print a machine-readable summary on stdout')
+    .option('--quiet', 'print nothing but errors')
+    .action(async (dataset: string, o: { out?: string; cache?: string; json?: boolean; quiet?: boolean }) => {
+      const { writeReport } = await import('../report/write-report.ts');
+      const r = await writeReport(resolve(dataset), { ...(o.out ? { outDir: resolve(o.out) } : {}), ...(o.cache ? { cacheDir: resolve(o.cache) } : {}) });
+      print(o, `report: ${r.file} (${r.tiles} tiles, ${r.maps} canvas maps with ${r.footprints} patch outlines, ${r.thumbnails} thumbnails)`, r);
+    });
+
   program.command('demo').description('paint the invented sample boards, serve them on 127.0.0.1, and run the whole job')
     .option('--out <dir>', 'demo folder', 'swatchbook-demo')
     .addOption(new Option('--port <n>', 'port of the embedded image server on 127.0.0.1').default(String(DEFAULT_DEMO_PORT)))
@@ -271,6 +299,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       const result = await runDemo(o.out, port, { onStage: (s) => rep.note(s), warn: (m) => rep.warn(m), onProgress: (stage, d, t) => rep.progress(stage, d, t) });
       const b = result.build;
       const probed = await probeAfterBuild(result.dataset, rep);
+      const reported = await reportAfterBuild(result.dataset, join(dirname(result.recipeFile), '.swatchbook-cache'), rep);
       print(o, [
         rep.bold(`demo done: ${b.patches} patches (train ${b.perSplit.train}, val ${b.perSplit.val}, test ${b.perSplit.test})`),
         `dataset:   ${result.dataset}`,
@@ -278,9 +307,10 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
         `index:     ${join(result.dataset, 'index.jsonl')}`,
         `failures:  ${join(result.dataset, 'failures.jsonl')} (${b.failures})`,
         probeLine(probed),
+        reportLine(reported),
         `recipe:    ${result.recipeFile}`,
         `try:       swatchbook trace <id from index.jsonl> --dataset ${result.dataset}`,
-      ].join('\n'), { ...result, probe: probed });
+      ].join('\n'), { ...result, probe: probed, report: reported });
       if (b.failures) exitCode = 1;
     });
 
