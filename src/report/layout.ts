@@ -37,9 +37,10 @@ export interface SheetLayout {
 /**
  * A contact sheet for one class × split cell: up to `max` patches chosen by
  * seeded hash (stable when patches are added: a chosen patch stays chosen
- * unless a new one hashes lower), shown in id order, `columns` to a row.
+ * unless a new one hashes lower), shown in id order, `columns` to a row with
+ * `gap` pixels between tiles.
  */
-export function sheetLayout(ids: readonly string[], seed: string, cell: string, max: number, tile: number, columns: number): SheetLayout {
+export function sheetLayout(ids: readonly string[], seed: string, cell: string, max: number, tile: number, columns: number, gap = 2): SheetLayout {
   const chosen = [...ids]
     .map((id) => ({ id, u: seededUnit(seed, 'report-sheet', cell, id) }))
     .sort((a, b) => a.u - b.u || byString(a.id, b.id))
@@ -49,9 +50,9 @@ export function sheetLayout(ids: readonly string[], seed: string, cell: string, 
   const cols = Math.max(1, Math.min(columns, chosen.length));
   const rows = Math.ceil(chosen.length / cols);
   return {
-    tiles: chosen.map((id, i) => ({ id, x: (i % cols) * tile, y: Math.floor(i / cols) * tile })),
-    width: chosen.length ? cols * tile : 0,
-    height: rows * tile,
+    tiles: chosen.map((id, i) => ({ id, x: (i % cols) * (tile + gap), y: Math.floor(i / cols) * (tile + gap) })),
+    width: chosen.length ? cols * (tile + gap) - gap : 0,
+    height: rows ? rows * (tile + gap) - gap : 0,
     tile,
     columns: cols,
     of: ids.length,

@@ -74,7 +74,7 @@ describe('swatchbook probe <dataset>', () => {
     expect(JSON.parse(out).leakage.flagged).toContainEqual(expect.objectContaining({ test: 'ffffffffffffffff', train: victim.id, hamming: 0 }));
   }, 120_000);
 
-  it('run writes the probe beside the dataset by default; --no-probe skips it', async () => {
+  it('run writes the probe and the report beside the dataset by default; --no-probe and --no-report skip them', async () => {
     serveScenario(scenarioBoards());
     const recipe = await scenarioRecipe(join(box.dir, 'cli'));
     const io = { stdout: { write: () => true } as unknown as NodeJS.WriteStream, stderr: { write: () => true } as unknown as NodeJS.WriteStream };
@@ -84,9 +84,15 @@ describe('swatchbook probe <dataset>', () => {
     const summary = JSON.parse(out);
     expect(summary.probe.file).toBe(join(`${recipe.output}-probe`, 'probe.json'));
     expect(summary.probe.separable).toBe(true);
+    // the visual report too, beside the dataset (never inside it), with every patch outlined
+    expect(summary.report.file).toBe(join(`${recipe.output}-report`, 'index.html'));
+    expect(summary.report.footprints).toBe(summary.patches);
+    expect(await readFile(summary.report.file, 'utf8')).toContain('<h2 id="maps">Canvas maps</h2>');
     await rm(`${recipe.output}-probe`, { recursive: true });
-    expect(await main(['build', recipe.file, '--no-probe', '--quiet'], io)).toBe(0);
+    await rm(`${recipe.output}-report`, { recursive: true });
+    expect(await main(['build', recipe.file, '--no-probe', '--no-report', '--quiet'], io)).toBe(0);
     await expect(readFile(join(`${recipe.output}-probe`, 'probe.json'))).rejects.toThrow();
+    await expect(readFile(join(`${recipe.output}-report`, 'index.html'))).rejects.toThrow();
   }, 120_000);
 
   it('--queries: outside images in class folders, cut at the patch size, retrieve their class; classes the dataset lacks are named', async () => {

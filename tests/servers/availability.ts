@@ -31,3 +31,12 @@ export function torchvisionAvailable(): boolean {
 export function scikitAvailable(): boolean {
   return available(python('skimage, sklearn'), 'scikit-image and scikit-learn for /usr/bin/python3', 'python3-skimage python3-sklearn');
 }
+
+/** The real Chromium binary of Debian's chromium-headless-shell (or chromium), for the browser test. */
+export const CHROMIUM_PATHS = ['/usr/lib/chromium/chromium-headless-shell', '/usr/lib/chromium/chromium'];
+
+/** Debian's headless Chromium, and a private network namespace to run it in (unshare, as root). */
+export function chromiumAvailable(): boolean {
+  const have = CHROMIUM_PATHS.some((p) => existsSync(p)) && spawnSync('unshare', ['--net', 'true']).status === 0;
+  return available(have, 'Chromium (chromium-headless-shell) or unshare --net', 'chromium-headless-shell util-linux');
+}
