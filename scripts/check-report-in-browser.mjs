@@ -3,14 +3,14 @@
 // browser) and prints one JSON object: console errors, every <img> decoded or not, the counts of contact-sheet
 // tiles, patch outlines and occurrence marks, requests that tried to leave the machine, and the screenshot's path.
 // Run it inside a network namespace that has only loopback, so nothing can leave:
-//   unshare --net sh -c 'ip link set lo up && node scripts/check-report-in-browser.mjs <report/index.html> <shot.png>'
+//   unshare --net sh -c 'ip link set lo up && node scripts/check-report-in-browser.mjs <report/index.html> <shot.png> [anchor id]'
 // CHROMIUM_PATH overrides the browser binary.
 import { chromium } from 'playwright-core';
 import { existsSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 
-const [html, shot] = process.argv.slice(2);
+const [html, shot, anchor] = process.argv.slice(2);
 if (!html || !shot) {
   console.error('usage: check-report-in-browser.mjs <index.html> <screenshot.png>');
   process.exit(2);
@@ -51,6 +51,7 @@ try {
     tileTargetsFound: [...document.querySelectorAll('map area.tile')].every((a) => document.getElementById(decodeURIComponent(a.getAttribute('href').slice(1)))),
     title: document.title,
   }));
+  if (anchor) await page.evaluate((id) => document.getElementById(id)?.scrollIntoView(), anchor);
   await page.screenshot({ path: resolve(shot), fullPage: false, type: 'png' });
   console.log(JSON.stringify({ browser: browser.version(), consoleErrors, blocked, images, counts }));
 } finally {

@@ -164,6 +164,7 @@ export function renderCardMarkdown(card: Card): string {
   lines.push(`# Dataset card: ${card.name}`, '');
   lines.push('## Motivation', '', card.motivation || '(the recipe gives no description)', '');
   lines.push('## Composition', '', `${c.patches} patches in ${c.classes.length} classes, ${c.groups.count} groups (grouped by ${c.groups.groupBy}).`, '');
+  lines.push('To see them: the visual report (contact sheets, canvas maps, where each class occurs, balance charts, near-duplicates, skips and failures) is written beside this folder as `<this folder>-report/index.html` by `swatchbook build` and `run`, or by `swatchbook report <this folder>`. It sits outside the folder so that this folder stays byte-identical on a rebuild.', '');
   table(['class', ...SPLITS, 'total'], c.classes.map((cls) => {
     const n = SPLITS.map((s) => c.perSplit[s][cls]);
     return [cls, ...n, n.reduce((a, b) => a + b, 0)];

@@ -270,12 +270,12 @@ describe('hostile input corpus', () => {
         expect(new Set(index.filter((r) => r.annotation).map((r) => r.annotation)).size).toBe(c.annotations);
       }
     }
-    // Nothing is written outside the output folder, its probe beside it, the cache and the lock beside the recipe.
+    // Nothing is written outside the output folder, its probe and report beside it, the cache and the lock beside the recipe.
     for (const f of await walk(dir)) {
       if (before.has(f)) continue;
       const rel = relative(sandbox, f);
       expect(rel.startsWith('..'), f).toBe(false);
-      expect(/^(hostile-dataset\/|hostile-dataset-probe\/probe\.json$|\.swatchbook-cache\/|hostile\.lock\.json$)/.test(rel), rel).toBe(true);
+      expect(/^(hostile-dataset\/|hostile-dataset-probe\/probe\.json$|hostile-dataset-report\/(index\.html|img\/[a-z0-9-]+\.(png|jpg))$|\.swatchbook-cache\/|hostile\.lock\.json$)/.test(rel), rel).toBe(true);
     }
   }, 30_000);
 });
