@@ -2,7 +2,7 @@ import { mkdir, readdir, readFile, appendFile, rm } from 'node:fs/promises';
 import { dirname, join, relative } from 'node:path';
 import { FetchError, InputError, UsageError } from './errors.ts';
 import { SPLITS, type SplitName } from './split/assign.ts';
-import { ContentCache } from './net/cache.ts';
+import { ContentCache, ResponseFacts } from './net/cache.ts';
 import { Fetcher, FetchEvent, FetchMode } from './net/fetcher.ts';
 import { canvasFacts } from './dataset/canvas-facts.ts';
 import { lockFrom, lockedSplits, readLock, writeLock, LockFile } from './net/lock.ts';
@@ -102,7 +102,7 @@ export async function planRecipe(recipe: Recipe, opts: RunOptions = {}): Promise
  * and locked like any request. One that fails leaves its map without a picture;
  * it is no failure of the dataset.
  */
-async function harvestThumbnails(plan: DatasetPlan, fetcher: Fetcher): Promise<void> {
+export async function harvestThumbnails(plan: DatasetPlan, fetcher: Fetcher): Promise<void> {
   await harvestCrops(canvasFacts(plan).flatMap((c) => (c.thumbnail ? [c.thumbnail.crop] : [])), fetcher);
 }
 
@@ -128,6 +128,31 @@ export async function harvestRecipe(recipe: Recipe, opts: RunOptions = {}): Prom
  * complete). The lock is built once, from what the harvest used.
  */
 export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { build: BuildSummary }> {
+  const planned = await planRecipe(recipe, opts);
+  const { plan, sources, fetcher } = planned;
+  const harvest = await harvestCrops(plan.crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
+  await harvestThumbnails(plan, fetcher);
+  const build = await buildFromHarvest(recipe, opts, { plan, sources, harvest, lockFacts: fetcher.used.values(), cache: fetcher.options.cache });
+  return { ...planned, build };
+}
+
+/** What the build stages need from planning and harvesting, wherever those ran (one machine, or shards merged). */
+export interface HarvestedInputs {
+  plan: DatasetPlan;
+  sources: Pick<ResolvedSources, 'failures' | 'notes' | 'documents'>;
+  harvest: Pick<HarvestResult, 'served' | 'failures' | 'summary'>;
+  /** Every response the documents, info.json, crops and thumbnails came from (the lock). */
+  lockFacts: Iterable<ResponseFacts>;
+  /** The cache holding every piece by sha256. */
+  cache: ContentCache;
+}
+
+/**
+ * The build after the harvest: cut (pieces read from the cache by sha256),
+ * assemble (pure), write (a folder transaction renamed into place when complete);
+ * the lock is built once, from the responses used, with the split assignment.
+ */
+export async function buildFromHarvest(recipe: Recipe, opts: RunOptions, input: HarvestedInputs): Promise<BuildSummary> {
   // The cut, assemble and write stages (and the image library) load only for builds: plan and harvest start faster.
   const [{ cutPatches }, { assembleDataset }, { toolVersions }, { writeDataset }] = await Promise.all([
     import('./cut/cut-patches.ts'),
@@ -135,26 +160,23 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
     import('./dataset/tool-versions.ts'),
     import('./dataset/write-dataset.ts'),
   ]);
+  const { plan, sources, harvest } = input;
   const previousSplits = opts.keepSplits ? await readPreviousSplits(opts.keepSplits) : undefined;
   const { seed, split } = recipe;
   const lockedBefore = opts.freshSplits ? undefined : lockedSplits(await readLock(lockPathFor(recipe)), seed, split.groupBy, split.fractions);
-  const planned = await planRecipe(recipe, opts);
-  const { plan, sources, fetcher } = planned;
-  const harvest = await harvestCrops(plan.crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
-  await harvestThumbnails(plan, fetcher);
   const tx = await FolderTransaction.begin(recipe.output);
   let build: BuildSummary;
   let lock: LockFile;
   try {
     const staging = tx.path('.staging');
     await mkdir(staging, { recursive: true });
-    const cut = await cutPatches(plan, harvest.served, fetcher.options.cache, staging, {
+    const cut = await cutPatches(plan, harvest.served, input.cache, staging, {
       ...(opts.cpuConcurrency ? { cpuConcurrency: opts.cpuConcurrency } : {}),
       onProgress: (d, t) => opts.onProgress?.('cut', d, t),
     });
     const tool = toolVersions();
     const data = assembleDataset({ recipe, sources, plan, served: harvest.served, harvestFailures: harvest.failures, cuts: cut.cuts, cutFailures: cut.failures, resampledPieces: cut.resampledPieces, tool, ...(previousSplits ? { previousSplits } : {}), ...(lockedBefore ? { lockedSplits: lockedBefore } : {}) });
-    lock = lockFrom(fetcher.used.values(), { seed, groupBy: split.groupBy, fractions: split.fractions, groups: Object.fromEntries(data.assignment.byGroup), ...(data.churn ? { churn: data.churn } : {}) });
+    lock = lockFrom(input.lockFacts, { seed, groupBy: split.groupBy, fractions: split.fractions, groups: Object.fromEntries(data.assignment.byGroup), ...(data.churn ? { churn: data.churn } : {}) });
     await writeDataset(tx, staging, data, serialiseLock(lock), recipe, tool);
     await tx.commit();
     build = {
@@ -173,7 +195,7 @@ export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<
   }
   if ((opts.mode ?? 'online') !== 'frozen' && opts.writeLock !== false) await writeLock(lockPathFor(recipe), lock);
   await logRun(recipe, opts, 'build', build);
-  return { ...planned, build };
+  return build;
 }
 
 /** The split of every group in a previous index.jsonl (the user's file: a problem is exit 2 with the line). */

@@ -44,6 +44,18 @@ function shared(cmd: Command): Command {
     .option('--debug', 'show stack traces of unexpected errors');
 }
 
+function positiveInt(raw: string, flag: string): number {
+  const n = Number(raw);
+  if (!Number.isInteger(n) || n < 1) throw new UsageError(`${flag} must be a positive integer, got ${JSON.stringify(raw)}`);
+  return n;
+}
+
+function nonNegativeInt(raw: string, flag: string): number {
+  const n = Number(raw);
+  if (!/^\d+$/.test(raw.trim()) || !Number.isInteger(n)) throw new UsageError(`${flag} must be a shard number (0, 1, …), got ${JSON.stringify(raw)}`);
+  return n;
+}
+
 function modeOf(o: Shared): FetchMode {
   if (o.offline && o.frozen) throw new UsageError('--offline and --frozen cannot be combined');
   return o.frozen ? 'frozen' : o.offline ? 'offline' : 'online';
@@ -125,10 +137,25 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       stdout.write(`wrote ${file} and ${join(folder, 'RECIPE.md')}; edit the sources and labels, then run: swatchbook plan ${file}\n`);
     });
 
-  shared(program.command('plan <recipe>').description('resolve sources and print what would be fetched, without fetching images'))
-    .action(async (path: string, o: Shared) => {
+  shared(program.command('plan <recipe>').description('resolve sources and print what would be fetched, without fetching images; --shards N also writes the plan and its partition for sharded harvests'))
+    .option('--shards <n>', 'partition the crops into N shards by image server host (with --out-plan)')
+    .option('--out-plan <dir>', 'plan folder for --shards (default: <name>-plan beside the recipe)')
+    .action(async (path: string, o: Shared & { shards?: string; outPlan?: string }) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
       const recipe = await recipeWith(path, o);
+      if (o.shards !== undefined) {
+        const n = positiveInt(o.shards, '--shards');
+        const dir = o.outPlan ? resolve(o.outPlan) : join(dirname(recipe.file), `${recipe.name}-plan`);
+        const { planShards } = await import('../shard/shard-run.ts');
+        const folder = await planShards(recipe, n, dir, runOptions(o, rep));
+        print(o, [
+          `plan: ${join(dir, 'plan.json')} (${folder.plan.crops.length} crops, ${folder.plan.patches.length} patches planned)`,
+          ...folder.shards.map((x) => `  shard ${x.index}: ${x.crops.length} crops, about ${x.estimatedRequests} requests, hosts ${x.hosts.join(', ') || '(none)'}`),
+          `next: swatchbook harvest --plan ${dir} --shard K (K = 0…${n - 1}), then swatchbook merge --plan ${dir}`,
+        ].join('\n'), { plan: join(dir, 'plan.json'), shards: folder.shards.map((x) => ({ ...x, crops: x.crops.length })), failures: folder.sources.failures });
+        if (folder.sources.failures.length) exitCode = 1;
+        return;
+      }
       const { planRecipe } = await pipeline();
       const { plan, sources } = await planRecipe(recipe, runOptions(o, rep));
       const perClass: Record<string, number> = {};
@@ -155,9 +182,23 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       if (sources.failures.length) exitCode = 1;
     });
 
-  shared(program.command('harvest <recipe>').description('fetch every crop into the cache and write the lock file'))
-    .action(async (path: string, o: Shared) => {
+  shared(program.command('harvest [recipe]').description('fetch every crop into the cache and write the lock file; with --plan, one shard of a sharded plan into its own cache'))
+    .option('--plan <dir>', 'plan folder written by plan --shards')
+    .option('--shard <k>', 'which shard (default: SLURM_ARRAY_TASK_ID, or JOB_COMPLETION_INDEX of a Kubernetes Indexed Job)')
+    .action(async (path: string | undefined, o: Shared & { plan?: string; shard?: string }) => {
       const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      if (o.plan) {
+        const raw = o.shard ?? process.env.SLURM_ARRAY_TASK_ID ?? process.env.JOB_COMPLETION_INDEX;
+        if (raw === undefined) throw new UsageError('harvest --plan needs --shard K (or SLURM_ARRAY_TASK_ID / JOB_COMPLETION_INDEX in the environment)');
+        const k = nonNegativeInt(raw, '--shard');
+        const { harvestShard } = await import('../shard/shard-run.ts');
+        const r = await harvestShard(resolve(o.plan), k, runOptions(o, rep));
+        const s = r.summary;
+        print(o, `shard ${k}: ${s.served} of ${s.crops} crops served (${s.fromCache} pieces from the cache, ${s.requests} requests, ${s.retries} retries), ${r.failures.length} failure(s)`, { shard: k, ...s, failures: r.failures });
+        if (r.failures.length) exitCode = 1;
+        return;
+      }
+      if (!path) throw new UsageError('harvest needs a recipe, or --plan DIR for one shard');
       const recipe = await recipeWith(path, o);
       const { harvestRecipe } = await pipeline();
       const { harvest, sources } = await harvestRecipe(recipe, runOptions(o, rep));
@@ -222,6 +263,61 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
     });
   buildLike('build', 'cut patches from the cache and write the dataset (never contacts a server)', 'offline');
   buildLike('run', 'plan, harvest and build in one go', undefined);
+
+  shared(program.command('merge [caches...]').description('merge the shards of a plan folder: union their caches (hashes verified), then build the dataset as run would'))
+    .requiredOption('--plan <dir>', 'plan folder written by plan --shards')
+    .option('--no-probe', 'do not run the probe after the build')
+    .option('--no-report', 'do not write the visual report after the build')
+    .action(async (caches: string[], o: Shared & { plan: string; probe?: boolean; report?: boolean }) => {
+      const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      const { mergeShards } = await import('../shard/shard-run.ts');
+      const build = await mergeShards(resolve(o.plan), caches.map((c) => resolve(c)), { ...runOptions(o, rep), ...(o.out ? { out: resolve(o.out) } : {}) });
+      const probed = o.probe === false ? undefined : await probeAfterBuild(build.out, rep);
+      const reported = o.report === false ? undefined : await reportAfterBuild(build.out, build.cacheDir, rep);
+      print(o, [
+        `${rep.bold(`${build.patches} patches`)} (train ${build.perSplit.train}, val ${build.perSplit.val}, test ${build.perSplit.test}) from ${build.crops} crops, merged from the shards`,
+        `dataset: ${build.out}`,
+        build.failures ? `${build.failures} failure(s): see ${join(build.out, 'failures.jsonl')}` : 'no failures',
+        ...(probed ? [probeLine(probed)] : []),
+        ...(reported ? [reportLine(reported)] : []),
+      ].join('\n'), { ...build, ...(probed ? { probe: probed } : {}), ...(reported ? { report: reported } : {}) });
+      if (build.failures) exitCode = 1;
+    });
+
+  shared(program.command('slurm <recipe>').description('plan N shards and write (with --submit, submit) a Slurm job array that harvests them and a merge job that depends on it'))
+    .requiredOption('--shards <n>', 'number of shards (array tasks)')
+    .option('--out-plan <dir>', 'plan folder (default: <name>-plan beside the recipe)')
+    .option('--partition <p>', 'Slurm partition')
+    .option('--time <t>', 'time limit per job (Slurm syntax, e.g. 02:00:00)')
+    .option('--submit', 'submit with sbatch and print the job ids')
+    .action(async (path: string, o: Shared & { shards: string; outPlan?: string; partition?: string; time?: string; submit?: boolean }) => {
+      const rep = new Reporter({ quiet: !!o.quiet, json: !!o.json, stream: stderr as NodeJS.WriteStream });
+      const recipe = await recipeWith(path, o);
+      const n = positiveInt(o.shards, '--shards');
+      const dir = o.outPlan ? resolve(o.outPlan) : join(dirname(recipe.file), `${recipe.name}-plan`);
+      const [{ planShards }, { harvestArrayScript, mergeScript, shellQuote }, { writeFile: write }, { execFileSync }] = await Promise.all([
+        import('../shard/shard-run.ts'), import('../shard/slurm-script.ts'), import('node:fs/promises'), import('node:child_process'),
+      ]);
+      const folder = await planShards(recipe, n, dir, runOptions(o, rep));
+      const bin = resolve(new URL('../../bin/swatchbook.js', import.meta.url).pathname);
+      const script = { command: `${shellQuote(process.execPath)} ${shellQuote(bin)}`, planDir: dir, shards: n, jobName: recipe.name, out: recipe.output, ...(o.partition ? { partition: o.partition } : {}), ...(o.time ? { time: o.time } : {}) };
+      const harvestFile = join(dir, 'harvest.sbatch'), mergeFile = join(dir, 'merge.sbatch');
+      await write(harvestFile, harvestArrayScript(script), { mode: 0o755 });
+      await write(mergeFile, mergeScript(script), { mode: 0o755 });
+      let jobs: { harvest: string; merge: string } | undefined;
+      if (o.submit) {
+        const harvestJob = execFileSync('sbatch', ['--parsable', harvestFile], { encoding: 'utf8' }).trim().split(';')[0]!;
+        const mergeJob = execFileSync('sbatch', ['--parsable', `--dependency=afterok:${harvestJob}`, mergeFile], { encoding: 'utf8' }).trim().split(';')[0]!;
+        jobs = { harvest: harvestJob, merge: mergeJob };
+      }
+      print(o, [
+        `plan: ${join(dir, 'plan.json')}, ${n} shard(s) by host: ${folder.shards.map((x) => `${x.index}: ${x.hosts.join(', ') || '(none)'} (${x.crops.length} crops)`).join('; ')}`,
+        `job array: ${harvestFile}`,
+        `merge job: ${mergeFile}`,
+        jobs ? `submitted: harvest array ${jobs.harvest}, merge ${jobs.merge} (after the array succeeds)` : `submit: sbatch ${harvestFile}, then sbatch --dependency=afterok:<array id> ${mergeFile}`,
+      ].join('\n'), { plan: join(dir, 'plan.json'), harvestScript: harvestFile, mergeScript: mergeFile, ...(jobs ? { jobs } : {}) });
+      if (folder.sources.failures.length) exitCode = 1;
+    });
 
   shared(program.command('verify <recipe>').description('rebuild from the cache and compare every file with the dataset; --refetch reports drift at the sources'))
     .option('--refetch', 'ask the servers again (politely) and report which sources changed; never overwrites the dataset')

@@ -40,3 +40,9 @@ export function chromiumAvailable(): boolean {
   const have = CHROMIUM_PATHS.some((p) => existsSync(p)) && spawnSync('unshare', ['--net', 'true']).status === 0;
   return available(have, 'Chromium (chromium-headless-shell) or unshare --net', 'chromium-headless-shell util-linux');
 }
+
+/** Debian's Slurm (controller, node daemon, client) and munge, as root: the batch-system test starts its own. */
+export function slurmAvailable(): boolean {
+  const have = ['slurmctld', 'slurmd', 'sbatch', 'squeue', 'scontrol', 'sinfo', 'munged', 'munge'].every((b) => spawnSync('sh', ['-c', `command -v ${b}`]).status === 0) && process.getuid?.() === 0;
+  return available(have, 'Slurm and munge (as root)', 'munge slurmctld slurmd slurm-client');
+}

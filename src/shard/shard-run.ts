@@ -1,0 +1,157 @@
+/**
+ * Sharded runs (I/O shell around the pure partition): `plan --shards` writes the
+ * plan once, `harvest --plan --shard K` fetches one shard's crops into its own
+ * cache, `merge` unions the caches (every object's hash verified, a URL with two
+ * different bodies refused) and runs the same build stages as a single `run`, so
+ * the merged dataset is byte-identical to one machine's.
+ */
+import { mkdir, readFile } from 'node:fs/promises';
+import { join, resolve } from 'node:path';
+import { UsageError } from '../errors.ts';
+import { canvasFacts } from '../dataset/canvas-facts.ts';
+import { harvestCrops, HarvestResult, PieceOutcome } from '../harvest/harvest.ts';
+import { writeFileAtomic } from '../net/atomic-write.ts';
+import { ContentCache, ResponseFacts } from '../net/cache.ts';
+import type { DatasetPlan } from '../plan/plan-dataset.ts';
+import { buildFromHarvest, BuildSummary, defaultCacheDir, openFetcher, planRecipe, RunOptions } from '../pipeline.ts';
+import { loadRecipe } from '../recipe/load.ts';
+import type { Recipe } from '../recipe/types.ts';
+import type { ResolvedSources } from '../sources/resolve.ts';
+import { byString } from '../util/hash.ts';
+import { hostOf, partitionByHost, ShardPlan } from './partition.ts';
+
+export const PLAN_DIR_VERSION = 1;
+
+/** `plan.json` of a plan folder: everything a shard or the merge needs besides the recipe file. */
+export interface PlanFolder {
+  version: number;
+  /** The recipe, by absolute path: shards and the merge read it there (a shared file system). */
+  recipeFile: string;
+  shards: ShardPlan[];
+  plan: DatasetPlan;
+  sources: Pick<ResolvedSources, 'failures' | 'notes' | 'documents'>;
+  /** The responses planning used (documents, info.json): the first part of the lock. */
+  lockFacts: ResponseFacts[];
+  /** Hosts the user named (recipe, local files): the shards may reach them even on private addresses, as planning could. */
+  trustedHosts: string[];
+}
+
+/** `shard-K/result.json`: what one shard harvested. */
+export interface ShardResult {
+  version: number;
+  shard: number;
+  served: Record<string, PieceOutcome[]>;
+  failures: HarvestResult['failures'];
+  summary: HarvestResult['summary'];
+  lockFacts: ResponseFacts[];
+}
+
+export const shardDir = (dir: string, k: number) => join(dir, `shard-${k}`);
+export const shardCacheDir = (dir: string, k: number) => join(shardDir(dir, k), 'cache');
+
+/** Plans once (documents and info.json into the recipe's cache) and writes the plan folder with its partition. */
+export async function planShards(recipe: Recipe, n: number, dir: string, opts: RunOptions = {}): Promise<PlanFolder> {
+  const { plan, sources, fetcher } = await planRecipe(recipe, opts);
+  const folder: PlanFolder = {
+    version: PLAN_DIR_VERSION,
+    recipeFile: resolve(recipe.file),
+    shards: partitionByHost(plan.crops, n),
+    plan,
+    sources: { failures: sources.failures, notes: sources.notes ?? [], documents: sources.documents },
+    lockFacts: [...fetcher.used.values()].sort((a, b) => byString(a.url, b.url)),
+    trustedHosts: [...new Set(fetcher.options.trustedHosts ?? [])].sort(byString),
+  };
+  await mkdir(dir, { recursive: true });
+  await writeFileAtomic(join(dir, 'plan.json'), `${JSON.stringify(folder)}\n`);
+  await writeFileAtomic(join(dir, 'shards.json'), `${JSON.stringify(folder.shards.map((s) => ({ ...s, crops: s.crops.length })), null, 2)}\n`);
+  return folder;
+}
+
+export async function readPlanFolder(dir: string): Promise<PlanFolder> {
+  let folder: PlanFolder;
+  try {
+    folder = JSON.parse(await readFile(join(dir, 'plan.json'), 'utf8'));
+  } catch (err) {
+    throw new UsageError(`${join(dir, 'plan.json')} cannot be read (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); write it with swatchbook plan <recipe> --shards N --out-plan ${dir}`);
+  }
+  if (folder.version !== PLAN_DIR_VERSION) throw new UsageError(`${join(dir, 'plan.json')} is of version ${folder.version}, this swatchbook reads ${PLAN_DIR_VERSION}`);
+  return folder;
+}
+
+/**
+ * Harvests shard `k` of a plan folder into its own cache (default
+ * `<dir>/shard-K/cache`): its crops and the thumbnails of the canvases on its
+ * hosts. A shard killed and started again resumes from its cache.
+ */
+export async function harvestShard(dir: string, k: number, opts: RunOptions = {}): Promise<ShardResult> {
+  const folder = await readPlanFolder(dir);
+  const shard = folder.shards[k];
+  if (!Number.isInteger(k) || !shard) throw new UsageError(`shard ${k} does not exist: the plan has shards 0 to ${folder.shards.length - 1}`);
+  const recipe = await loadRecipe(folder.recipeFile);
+  const fetcher = await openFetcher(recipe, { ...opts, cacheDir: opts.cacheDir ?? shardCacheDir(dir, k) });
+  for (const h of folder.trustedHosts ?? []) fetcher.trustHost(h);
+  const keys = new Set(shard.crops);
+  const crops = folder.plan.crops.filter((c) => keys.has(c.key));
+  const harvest = await harvestCrops(crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
+  const hosts = new Set(shard.hosts);
+  const thumbnails = canvasFacts(folder.plan).flatMap((c) => (c.thumbnail && hosts.has(hostOf(c.thumbnail.crop.stitch.pieces[0]?.url ?? '')) ? [c.thumbnail.crop] : []));
+  await harvestCrops(thumbnails, fetcher);
+  const result: ShardResult = {
+    version: PLAN_DIR_VERSION,
+    shard: k,
+    served: Object.fromEntries([...harvest.served.entries()].sort((a, b) => byString(a[0], b[0]))),
+    failures: harvest.failures,
+    summary: harvest.summary,
+    lockFacts: [...fetcher.used.values()].sort((a, b) => byString(a.url, b.url)),
+  };
+  await mkdir(shardDir(dir, k), { recursive: true });
+  await writeFileAtomic(join(shardDir(dir, k), 'result.json'), `${JSON.stringify(result)}\n`);
+  return result;
+}
+
+/**
+ * Merges the shards of a plan folder: reads every shard's result, copies every
+ * body it used from the shard caches given into the recipe's cache (each hash
+ * verified), refuses a URL that two shards saw with different bytes, and builds
+ * the dataset with the same stages as `run`.
+ */
+export async function mergeShards(dir: string, caches: readonly string[], opts: RunOptions & { out?: string } = {}): Promise<BuildSummary & { cacheDir: string }> {
+  const folder = await readPlanFolder(dir);
+  const loaded = await loadRecipe(folder.recipeFile);
+  const recipe = opts.out ? { ...loaded, output: opts.out } : loaded;
+  const results: ShardResult[] = [];
+  for (const s of folder.shards) {
+    try {
+      results.push(JSON.parse(await readFile(join(shardDir(dir, s.index), 'result.json'), 'utf8')));
+    } catch {
+      throw new UsageError(`shard ${s.index} has no result (${join(shardDir(dir, s.index), 'result.json')}): run swatchbook harvest --plan ${dir} --shard ${s.index} first`);
+    }
+  }
+  const cacheDir = opts.cacheDir ?? defaultCacheDir(recipe);
+  const target = new ContentCache(cacheDir);
+  const sources = (caches.length ? caches : folder.shards.map((s) => shardCacheDir(dir, s.index))).map((c) => new ContentCache(resolve(c)));
+  const facts = new Map<string, ResponseFacts & { from: string }>();
+  for (const f of folder.lockFacts) facts.set(f.url, { ...f, from: 'the plan' });
+  for (const r of results) {
+    for (const f of r.lockFacts) {
+      const seen = facts.get(f.url);
+      if (seen && seen.sha256 !== f.sha256) throw new UsageError(`${f.url}: ${seen.from} and shard ${r.shard} hold different bytes for this URL (sha256 ${seen.sha256.slice(0, 12)}… and ${f.sha256.slice(0, 12)}…); the source changed between them: harvest again`);
+      if (seen) continue;
+      facts.set(f.url, { ...f, from: `shard ${r.shard}` });
+      let body: Buffer | undefined;
+      for (const c of sources) if ((body = await c.getBody(f.sha256))) break; // getBody verifies the hash
+      if (!body && !(await target.getBody(f.sha256))) throw new UsageError(`${f.url}: no cache given holds its body (sha256 ${f.sha256}); pass shard ${r.shard}'s cache to merge`);
+      if (body) await target.putBody(body);
+      await target.putRef(f);
+    }
+  }
+  const served = new Map<string, PieceOutcome[]>();
+  for (const r of results) for (const [k, v] of Object.entries(r.served)) served.set(k, v);
+  const summary = results.reduce<HarvestResult['summary']>(
+    (a, r) => ({ crops: a.crops + r.summary.crops, served: a.served + r.summary.served, failed: a.failed + r.summary.failed, requests: a.requests + r.summary.requests, fromCache: a.fromCache + r.summary.fromCache, bytes: a.bytes + r.summary.bytes, retries: a.retries + r.summary.retries, uniquePieces: a.uniquePieces + r.summary.uniquePieces }),
+    { crops: 0, served: 0, failed: 0, requests: 0, fromCache: 0, bytes: 0, retries: 0, uniquePieces: 0 },
+  );
+  const lockFacts = [...facts.values()].map(({ from: _from, ...f }) => f);
+  const build = await buildFromHarvest(recipe, opts, { plan: folder.plan, sources: folder.sources, harvest: { served, failures: results.flatMap((r) => r.failures), summary }, lockFacts, cache: target });
+  return { ...build, cacheDir };
+}
