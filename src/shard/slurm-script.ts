@@ -35,7 +35,7 @@ function header(o: SlurmScriptOptions, name: string, log: string, extra: string[
 
 /** The harvest array: task K fetches shard K into `<plan>/shard-K/cache`. One host per shard keeps every server's load as on one machine. */
 export function harvestArrayScript(o: SlurmScriptOptions): string {
-  return `${header(o, 'harvest', `${o.planDir}/shard-%a/slurm-%A_%a.out`, [`#SBATCH --array=0-${o.shards - 1}`, '#SBATCH --cpus-per-task=1'])}
+  return `${header(o, 'harvest', `${o.planDir}/slurm-harvest-%A_%a.out`, [`#SBATCH --array=0-${o.shards - 1}`, '#SBATCH --cpus-per-task=1'])}
 # Each task reads its shard from SLURM_ARRAY_TASK_ID; a task killed and started again resumes from its cache.
 exec ${o.command} harvest --plan ${shellQuote(o.planDir)} --quiet
 `;
