@@ -1,12 +1,12 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdtemp, readFile, rm } from 'node:fs/promises';
-import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { runDemo } from '../../src/demo/run-demo.ts';
 import { hashTree } from '../../src/pipeline.ts';
 import { parseIndex } from '../../src/dataset/records.ts';
 import { startDemoServer } from '../../src/demo/server.ts';
+import { freePort } from '../servers/net-util.ts';
 
 let dir: string;
 beforeAll(async () => {
@@ -16,13 +16,6 @@ afterAll(async () => {
   await rm(dir, { recursive: true, force: true });
 });
 
-async function freePort(): Promise<number> {
-  const srv = createServer();
-  await new Promise<void>((r) => srv.listen(0, '127.0.0.1', () => r()));
-  const port = (srv.address() as { port: number }).port;
-  await new Promise<void>((r) => srv.close(() => r()));
-  return port;
-}
 
 describe('the demo', () => {
   it('twice on the same port, from scratch: a real dataset, every class in every split, byte-identical', async () => {

@@ -1,7 +1,6 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdtemp, readFile, rm } from 'node:fs/promises';
 import { spawnSync } from 'node:child_process';
-import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import sharp from 'sharp';
@@ -10,6 +9,7 @@ import { hashTree } from '../../src/pipeline.ts';
 import { parseIndex } from '../../src/dataset/records.ts';
 import { writeReport } from '../../src/report/write-report.ts';
 import { chromiumAvailable } from '../servers/availability.ts';
+import { freePort } from '../servers/net-util.ts';
 
 let dir: string;
 beforeAll(async () => {
@@ -19,13 +19,6 @@ afterAll(async () => {
   await rm(dir, { recursive: true, force: true });
 });
 
-async function freePort(): Promise<number> {
-  const srv = createServer();
-  await new Promise<void>((r) => srv.listen(0, '127.0.0.1', () => r()));
-  const port = (srv.address() as { port: number }).port;
-  await new Promise<void>((r) => srv.close(() => r()));
-  return port;
-}
 
 const SCRIPT = resolve(import.meta.dirname, '../../scripts/check-report-in-browser.mjs');
 

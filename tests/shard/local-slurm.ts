@@ -1,9 +1,9 @@
 import { ChildProcess, execFileSync, spawn, spawnSync } from 'node:child_process';
 import { chmod, mkdir, mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { randomBytes } from 'node:crypto';
-import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { freePort } from '../servers/net-util.ts';
 
 /**
  * A single-node Slurm on 127.0.0.1 in a temporary folder, as root, with its own
@@ -16,13 +16,6 @@ export interface LocalSlurm {
   stop: () => Promise<void>;
 }
 
-async function freePort(): Promise<number> {
-  const srv = createServer();
-  await new Promise<void>((r) => srv.listen(0, '127.0.0.1', () => r()));
-  const port = (srv.address() as { port: number }).port;
-  await new Promise<void>((r) => srv.close(() => r()));
-  return port;
-}
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
