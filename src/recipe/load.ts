@@ -1,13 +1,14 @@
 import { readFile } from 'node:fs/promises';
 import { dirname, isAbsolute, resolve } from 'node:path';
-import { Ajv, ErrorObject } from 'ajv';
+import type { ErrorObject } from 'ajv';
 import { InputError, describeValue } from '../errors.ts';
 import { escapePointerToken, parseJsonText } from '../iiif/json-view.ts';
-import { recipeSchema } from './schema.ts';
 import type { Recipe, SourceSpec } from './types.ts';
 
-const ajv = new Ajv({ allErrors: true, useDefaults: true, strict: false });
-const validate = ajv.compile(recipeSchema);
+import { validate as generatedValidate } from './validate-recipe.generated.ts';
+
+/** The recipe schema's validator, precompiled by `npm run docs` (ajv standalone code, defaults filled in place). */
+const validate = generatedValidate as unknown as ((doc: unknown) => boolean) & { errors?: ErrorObject[] | null };
 
 function valueAt(doc: unknown, pointer: string): unknown {
   let cur: unknown = doc;

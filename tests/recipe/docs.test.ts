@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
-import { readmeWithReference, schemaFileText } from '../../scripts/generate-docs.ts';
+import { readmeWithReference, schemaFileText, validatorModuleText } from '../../scripts/generate-docs.ts';
 
 describe('generated documentation stays in step with the schema', () => {
   it('schema/recipe.schema.json equals the schema in src/recipe/schema.ts (run npm run docs)', () => {
@@ -10,6 +10,9 @@ describe('generated documentation stays in step with the schema', () => {
     const readme = readFileSync('README.md', 'utf8');
     expect(readme).toBe(readmeWithReference(readme));
     expect(readme).toContain('`patch.minCoverage`');
+  });
+  it('the precompiled recipe validator is the one generated from the schema (run npm run docs)', () => {
+    expect(readFileSync('src/recipe/validate-recipe.generated.ts', 'utf8')).toBe(validatorModuleText());
   });
   it('the package version and the code agree', async () => {
     const { VERSION } = await import('../../src/version.ts');
