@@ -14,6 +14,7 @@ import { spawn } from 'node:child_process';
 import sharp from 'sharp';
 import { normaliseRecipe } from '../src/recipe/load.ts';
 import { planRecipe } from '../src/pipeline.ts';
+import { canvasFacts } from '../src/dataset/canvas-facts.ts';
 import { startProcessorServer, truthImage } from './servers.ts';
 
 const RUNS = Number(process.env.RUNS ?? 5);
@@ -73,7 +74,9 @@ export async function processBenchmarks(): Promise<[string, string, string][]> {
     await writeFile(join(work, 'manifest.json'), JSON.stringify(manifest));
     await writeFile(join(work, 'recipe.json'), JSON.stringify(doc));
     const { plan } = await planRecipe(normaliseRecipe(doc, join(work, 'recipe.json'), work), { cacheDir: join(work, 'plan-cache') });
-    const urls = [...new Set([...Array.from({ length: N }, (_, i) => `${server.base}/3/p${i}.png/info.json`), ...plan.crops.flatMap((c) => c.stitch.pieces.map((p) => p.url))])];
+    // The same URLs the harvest fetches: info.json, every crop piece, and the canvas thumbnails the report uses.
+    const thumbnails = canvasFacts(plan).flatMap((c) => (c.thumbnail ? c.thumbnail.crop.stitch.pieces.map((p) => p.url) : []));
+    const urls = [...new Set([...Array.from({ length: N }, (_, i) => `${server.base}/3/p${i}.png/info.json`), ...plan.crops.flatMap((c) => c.stitch.pieces.map((p) => p.url)), ...thumbnails])];
     await writeFile(join(work, 'urls.json'), JSON.stringify(urls));
     const bareScript = join(work, 'bare.mjs');
     await writeFile(bareScript, [

@@ -109,8 +109,8 @@ export async function harvestThumbnails(plan: DatasetPlan, fetcher: Fetcher): Pr
 /** Plans, then fetches every crop piece into the cache, and writes the lock beside the recipe. */
 export async function harvestRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { harvest: HarvestResult }> {
   const planned = await planRecipe(recipe, opts);
-  const harvest = await harvestCrops(planned.plan.crops, planned.fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
-  await harvestThumbnails(planned.plan, planned.fetcher);
+  // Thumbnails go through the same fetcher (its limits hold for both) alongside the crops, not after them.
+  const [harvest] = await Promise.all([harvestCrops(planned.plan.crops, planned.fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) }), harvestThumbnails(planned.plan, planned.fetcher)]);
   if ((opts.mode ?? 'online') !== 'frozen') {
     // The harvest assigns no splits: the last build's stay in the lock.
     const before = await readLock(lockPathFor(recipe));
@@ -130,8 +130,7 @@ export async function harvestRecipe(recipe: Recipe, opts: RunOptions = {}): Prom
 export async function runRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned & { build: BuildSummary }> {
   const planned = await planRecipe(recipe, opts);
   const { plan, sources, fetcher } = planned;
-  const harvest = await harvestCrops(plan.crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
-  await harvestThumbnails(plan, fetcher);
+  const [harvest] = await Promise.all([harvestCrops(plan.crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) }), harvestThumbnails(plan, fetcher)]);
   const build = await buildFromHarvest(recipe, opts, { plan, sources, harvest, lockFacts: fetcher.used.values(), cache: fetcher.options.cache });
   return { ...planned, build };
 }
