@@ -20,6 +20,8 @@ export interface BuildSummary {
   perSplit: Record<string, number>;
   crops: number;
   cropsFailed: number;
+  /** Crops whose patches came from cut results already in the cache (a rebuild, or a merge of shards that cut). */
+  cropsCutFromCache: number;
   failures: number;
   nearDuplicatePairs: number;
   harvest: HarvestResult['summary'];
@@ -183,6 +185,7 @@ export async function buildFromHarvest(recipe: Recipe, opts: RunOptions, input: 
       perSplit: data.perSplit,
       crops: plan.crops.length,
       cropsFailed: plan.crops.length - harvest.served.size + cut.failures.length,
+      cropsCutFromCache: cut.reusedCrops,
       failures: data.failures.length,
       nearDuplicatePairs: data.pairs.length,
       harvest: harvest.summary,

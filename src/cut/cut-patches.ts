@@ -34,6 +34,8 @@ export interface CutResult {
   /** Pieces a server returned ±1 pixel off (within tolerance) and that were resampled to the planned size. */
   resampledPieces: number;
   failures: FailureRecord[];
+  /** Crops whose cut results came from the cache (not stitched again). */
+  reusedCrops: number;
 }
 
 export interface CutOptions {
@@ -129,5 +131,5 @@ export async function cutPatches(plan: Pick<DatasetPlan, 'crops' | 'patches'>, s
       }),
     ),
   );
-  return { cuts, resampledPieces: [...resampledByCrop.values()].reduce((a, b) => a + b, 0), failures };
+  return { cuts, resampledPieces: [...resampledByCrop.values()].reduce((a, b) => a + b, 0), failures, reusedCrops: reused.size };
 }

@@ -5,7 +5,7 @@
  * different bodies refused) and runs the same build stages as a single `run`, so
  * the merged dataset is byte-identical to one machine's.
  */
-import { mkdir, readFile } from 'node:fs/promises';
+import { mkdir, readdir, readFile, rm } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
 import { UsageError } from '../errors.ts';
 import { canvasFacts } from '../dataset/canvas-facts.ts';
@@ -93,6 +93,14 @@ export async function harvestShard(dir: string, k: number, opts: RunOptions = {}
   const keys = new Set(shard.crops);
   const crops = folder.plan.crops.filter((c) => keys.has(c.key));
   const harvest = await harvestCrops(crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
+  // The shard cuts its crops too (the CPU-heavy part): the cut results go into its cache, keyed by their
+  // inputs, and the merge copies them, so it only assembles and writes.
+  const { cutPatches } = await import('../cut/cut-patches.ts');
+  const staging = join(shardDir(dir, k), '.cut-staging');
+  await rm(staging, { recursive: true, force: true });
+  await mkdir(staging, { recursive: true });
+  await cutPatches({ crops, patches: folder.plan.patches.filter((p) => keys.has(p.cropKey)) }, harvest.served, fetcher.options.cache, staging, { onProgress: (d, t) => opts.onProgress?.('cut', d, t) });
+  await rm(staging, { recursive: true, force: true });
   const hosts = new Set(shard.hosts);
   const thumbnails = canvasFacts(folder.plan).flatMap((c) => (c.thumbnail && hosts.has(hostOf(c.thumbnail.crop.stitch.pieces[0]?.url ?? '')) ? [c.thumbnail.crop] : []));
   await harvestCrops(thumbnails, fetcher);
@@ -145,6 +153,8 @@ export async function mergeShards(dir: string, caches: readonly string[], opts: 
       await target.putRef(f);
     }
   }
+  // The shards' cut results: each record and the patch files it names, hashes verified.
+  for (const c of sources) await copyCutResults(c, target);
   const served = new Map<string, PieceOutcome[]>();
   for (const r of results) for (const [k, v] of Object.entries(r.served)) served.set(k, v);
   const summary = results.reduce<HarvestResult['summary']>(
@@ -154,4 +164,26 @@ export async function mergeShards(dir: string, caches: readonly string[], opts: 
   const lockFacts = [...facts.values()].map(({ from: _from, ...f }) => f);
   const build = await buildFromHarvest(recipe, opts, { plan: folder.plan, sources: folder.sources, harvest: { served, failures: results.flatMap((r) => r.failures), summary }, lockFacts, cache: target });
   return { ...build, cacheDir };
+}
+
+/** Copies every cut result of a shard cache (derived records and the patch bodies they name) into the target. */
+async function copyCutResults(from: ContentCache, to: ContentCache): Promise<void> {
+  const root = join(from.dir, 'derived');
+  for (const prefix of await readdir(root).catch(() => [] as string[])) {
+    for (const name of await readdir(join(root, prefix)).catch(() => [] as string[])) {
+      const key = name.replace(/\.json$/, '');
+      const record = await from.getDerived<{ cuts?: Record<string, { sha256: string }> }>(key);
+      if (!record?.cuts) continue;
+      let complete = true;
+      for (const cut of Object.values(record.cuts)) {
+        const body = await from.getBody(cut.sha256); // verified against its hash
+        if (!body) {
+          complete = false;
+          break;
+        }
+        await to.putBody(body);
+      }
+      if (complete) await to.putDerived(key, record);
+    }
+  }
 }

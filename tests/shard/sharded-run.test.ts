@@ -61,7 +61,12 @@ describe('sharded harvest and merge', () => {
       } finally {
         delete process.env.SLURM_ARRAY_TASK_ID;
       }
-      expect(await main(['merge', '--plan', plan, '--out', join(dir, 'merged'), '--no-probe', '--no-report', '--quiet', join(plan, 'shard-0', 'cache'), join(plan, 'shard-1', 'cache')], quiet)).toBe(0);
+      // merged into a fresh cache: every crop's patches come from the shards' cut results, none is cut again
+      const m = capture();
+      expect(await main(['merge', '--plan', plan, '--out', join(dir, 'merged'), '--cache', join(dir, 'merge-cache'), '--no-probe', '--no-report', '--json', join(plan, 'shard-0', 'cache'), join(plan, 'shard-1', 'cache')], m.io)).toBe(0);
+      const merged = JSON.parse(m.out());
+      expect(merged.crops).toBeGreaterThan(100);
+      expect(merged.cropsCutFromCache).toBe(merged.crops - merged.cropsFailed);
       const a = await hashTree(join(dir, 'single')), b = await hashTree(join(dir, 'merged'));
       expect(a.size).toBeGreaterThan(100);
       expect([...b.entries()]).toEqual([...a.entries()]);
