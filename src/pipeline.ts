@@ -9,6 +9,7 @@ import { lockFrom, lockedSplits, readLock, writeLock, LockFile } from './net/loc
 import { DEFAULT_RETRY_POLICY } from './net/retry-policy.ts';
 import { harvestCrops, HarvestResult } from './harvest/harvest.ts';
 import { planDataset, DatasetPlan } from './plan/plan-dataset.ts';
+import type { CropRequest } from './plan/crop-request.ts';
 import type { Recipe } from './recipe/types.ts';
 import { resolveSources, ResolvedSources } from './sources/resolve.ts';
 import { FolderTransaction } from './dataset/write-folder.ts';
@@ -102,10 +103,10 @@ export async function planRecipe(recipe: Recipe, opts: RunOptions = {}): Promise
 /**
  * Canvas thumbnails for the report: small crops of each painted image, fetched
  * and locked like any request. One that fails leaves its map without a picture;
- * it is no failure of the dataset.
+ * it is no failure of the dataset. `keep` picks some (a shard takes those on its hosts).
  */
-export async function harvestThumbnails(plan: DatasetPlan, fetcher: Fetcher): Promise<void> {
-  await harvestCrops(canvasFacts(plan).flatMap((c) => (c.thumbnail ? [c.thumbnail.crop] : [])), fetcher);
+export async function harvestThumbnails(plan: DatasetPlan, fetcher: Fetcher, keep: (crop: CropRequest) => boolean = () => true): Promise<void> {
+  await harvestCrops(canvasFacts(plan).flatMap((c) => (c.thumbnail && keep(c.thumbnail.crop) ? [c.thumbnail.crop] : [])), fetcher);
 }
 
 /** Plans, then fetches every crop piece into the cache, and writes the lock beside the recipe. */

@@ -94,6 +94,16 @@ export class ContentCache {
     }
   }
 
+  /** Keys of every derived record in this cache, sorted. */
+  async derivedKeys(): Promise<string[]> {
+    const root = join(this.dir, 'derived');
+    const keys: string[] = [];
+    for (const prefix of await readdir(root).catch(() => [] as string[])) {
+      for (const name of await readdir(join(root, prefix)).catch(() => [] as string[])) if (name.endsWith('.json')) keys.push(name.slice(0, -5));
+    }
+    return keys.sort();
+  }
+
   async putDerived(key: string, value: unknown): Promise<void> {
     await writeFileAtomic(join(this.dir, 'derived', key.slice(0, 2), `${key}.json`), `${JSON.stringify(value)}\n`);
   }

@@ -97,7 +97,9 @@ export async function writeReport(dataset: string, opts: { outDir?: string; cach
   const patchesOf = new Map<string, IndexRecord[]>();
   for (const r of records) {
     const k = `${r.manifest}\u001f${r.canvas}`;
-    patchesOf.set(k, [...(patchesOf.get(k) ?? []), r]);
+    const list = patchesOf.get(k);
+    if (list) list.push(r);
+    else patchesOf.set(k, [r]);
   }
   const maps: ReportModel['maps'] = [];
   let thumbnails = 0;
@@ -135,18 +137,18 @@ export async function writeReport(dataset: string, opts: { outDir?: string; cach
 
   // Where each class occurs, per manifest.
   const labelOf = new Map(canvases.map((c) => [`${c.manifest}\u001f${c.canvas}`, { index: c.index, label: c.label }]));
-  const occurrence: ReportModel['occurrence'] = [];
-  for (const manifest of [...new Set(records.map((r) => r.manifest))].sort(byString)) {
-    const counts = new Map<string, { label: string; canvasIndex: number; canvasLabel: string; count: number }>();
-    for (const r of records.filter((x) => x.manifest === manifest)) {
-      const c = labelOf.get(`${r.manifest}\u001f${r.canvas}`) ?? { index: 0, label: r.canvas };
-      const k = `${r.label}\u001f${c.index}`;
-      const e = counts.get(k) ?? { label: r.label, canvasIndex: c.index, canvasLabel: c.label, count: 0 };
-      e.count++;
-      counts.set(k, e);
-    }
-    occurrence.push({ manifest, chart: occurrenceChart([...counts.values()], classes) });
+  // One pass over the records: counts per manifest, class and canvas.
+  const countsBy = new Map<string, Map<string, { label: string; canvasIndex: number; canvasLabel: string; count: number }>>();
+  for (const r of records) {
+    const c = labelOf.get(`${r.manifest}\u001f${r.canvas}`) ?? { index: 0, label: r.canvas };
+    const counts = countsBy.get(r.manifest) ?? new Map();
+    countsBy.set(r.manifest, counts);
+    const k = `${r.label}\u001f${c.index}`;
+    const e = counts.get(k) ?? { label: r.label, canvasIndex: c.index, canvasLabel: c.label, count: 0 };
+    e.count++;
+    counts.set(k, e);
   }
+  const occurrence: ReportModel['occurrence'] = [...countsBy.keys()].sort(byString).map((manifest) => ({ manifest, chart: occurrenceChart([...countsBy.get(manifest)!.values()], classes) }));
 
   // Balance.
   const perClassSplit: Record<string, Record<string, number>> = {};

@@ -5,15 +5,14 @@
  * different bodies refused) and runs the same build stages as a single `run`, so
  * the merged dataset is byte-identical to one machine's.
  */
-import { mkdir, readdir, readFile, rm } from 'node:fs/promises';
+import { mkdir, readFile, rm } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
 import { UsageError } from '../errors.ts';
-import { canvasFacts } from '../dataset/canvas-facts.ts';
 import { harvestCrops, HarvestResult, PieceOutcome } from '../harvest/harvest.ts';
 import { writeFileAtomic } from '../net/atomic-write.ts';
 import { ContentCache, ResponseFacts } from '../net/cache.ts';
 import type { DatasetPlan } from '../plan/plan-dataset.ts';
-import { buildFromHarvest, BuildSummary, defaultCacheDir, openFetcher, planRecipe, RunOptions } from '../pipeline.ts';
+import { buildFromHarvest, BuildSummary, defaultCacheDir, harvestThumbnails, openFetcher, planRecipe, RunOptions } from '../pipeline.ts';
 import { loadRecipe } from '../recipe/load.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ResolvedSources } from '../sources/resolve.ts';
@@ -102,8 +101,7 @@ export async function harvestShard(dir: string, k: number, opts: RunOptions = {}
   await cutPatches({ crops, patches: folder.plan.patches.filter((p) => keys.has(p.cropKey)) }, harvest.served, fetcher.options.cache, staging, { onProgress: (d, t) => opts.onProgress?.('cut', d, t) });
   await rm(staging, { recursive: true, force: true });
   const hosts = new Set(shard.hosts);
-  const thumbnails = canvasFacts(folder.plan).flatMap((c) => (c.thumbnail && hosts.has(hostOf(c.thumbnail.crop.stitch.pieces[0]?.url ?? '')) ? [c.thumbnail.crop] : []));
-  await harvestCrops(thumbnails, fetcher);
+  await harvestThumbnails(folder.plan, fetcher, (crop) => hosts.has(hostOf(crop.stitch.pieces[0]?.url ?? '')));
   const result: ShardResult = {
     version: PLAN_DIR_VERSION,
     shard: k,
@@ -168,22 +166,18 @@ export async function mergeShards(dir: string, caches: readonly string[], opts: 
 
 /** Copies every cut result of a shard cache (derived records and the patch bodies they name) into the target. */
 async function copyCutResults(from: ContentCache, to: ContentCache): Promise<void> {
-  const root = join(from.dir, 'derived');
-  for (const prefix of await readdir(root).catch(() => [] as string[])) {
-    for (const name of await readdir(join(root, prefix)).catch(() => [] as string[])) {
-      const key = name.replace(/\.json$/, '');
-      const record = await from.getDerived<{ cuts?: Record<string, { sha256: string }> }>(key);
-      if (!record?.cuts) continue;
-      let complete = true;
-      for (const cut of Object.values(record.cuts)) {
-        const body = await from.getBody(cut.sha256); // verified against its hash
-        if (!body) {
-          complete = false;
-          break;
-        }
-        await to.putBody(body);
+  for (const key of await from.derivedKeys()) {
+    const record = await from.getDerived<{ cuts?: Record<string, { sha256: string }> }>(key);
+    if (!record?.cuts) continue;
+    let complete = true;
+    for (const cut of Object.values(record.cuts)) {
+      const body = await from.getBody(cut.sha256); // verified against its hash
+      if (!body) {
+        complete = false;
+        break;
       }
-      if (complete) await to.putDerived(key, record);
+      await to.putBody(body);
     }
+    if (complete) await to.putDerived(key, record);
   }
 }
