@@ -173,7 +173,7 @@ export class Fetcher {
       }
     }
     if (mode === 'offline') throw new FetchError(url, 'not in the cache, and this run may not fetch (offline; run harvest or run first)', { attempts: 0, code: 'E_OFFLINE' });
-    const fetched = await this.withGlobalSlot(() => this.fetchWithRetries(url, kind));
+    const fetched = await this.fetchWithRetries(url, kind);
     if (mode === 'frozen' && locked && fetched.facts.sha256 !== locked.sha256) {
       throw new FetchError(url, `body changed at the source: the lock has sha256 ${locked.sha256}, the server sent ${fetched.facts.sha256}`, { attempts: fetched.attempts, code: 'E_FROZEN' });
     }
@@ -237,7 +237,8 @@ export class Fetcher {
     }
     for (let attempt = 1; ; attempt++) {
       try {
-        const { facts, body } = await this.attempt(url, kind, attempt);
+        // The slot covers the request only: writing the cache or waiting out a back-off leaves it to the next request.
+        const { facts, body } = await this.withGlobalSlot(() => this.attempt(url, kind, attempt));
         const sha = await this.options.cache.putBody(body);
         const full: ResponseFacts = { ...facts, sha256: sha };
         // A refresh (verify --refetch) looks without moving what builds use: refs stay as they were.
