@@ -5,6 +5,10 @@ import { randomBytes } from 'node:crypto';
 /** Folders this process has made or seen: a cache write then costs no `mkdir` (content-addressed stores write thousands). */
 const knownDirs = new Set<string>();
 
+/** Temporary names: this process's id and a random tag drawn once (caches may be shared between machines), then a counter. */
+export const processTag = `${process.pid}-${randomBytes(4).toString('hex')}`;
+let tmpCount = 0;
+
 /**
  * Writes a file so that readers see either the old content or the whole new
  * content, never a part: write to a temporary name in the same folder, then rename.
@@ -18,7 +22,7 @@ export async function writeFileAtomic(path: string, data: Uint8Array | string, d
     await mkdir(dir, { recursive: true });
     knownDirs.add(dir);
   }
-  const tmp = join(dir, `.tmp-${process.pid}-${randomBytes(6).toString('hex')}`);
+  const tmp = join(dir, `.tmp-${processTag}-${(tmpCount++).toString(36)}`);
   try {
     if (durable) {
       const fh = await open(tmp, 'w');

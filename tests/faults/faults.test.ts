@@ -7,6 +7,7 @@ import sharp from 'sharp';
 import { main } from '../../src/cli/main.ts';
 import { hashTree } from '../../src/pipeline.ts';
 import { sha256Hex } from '../../src/util/hash.ts';
+import { ContentCache } from '../../src/net/cache.ts';
 import { startProcessorServer } from '../servers/processor.ts';
 import { truthImage } from '../servers/ground-truth.ts';
 import { startFlakyProxy } from './flaky-proxy.ts';
@@ -162,12 +163,12 @@ describe('crash and resume (SIGKILL)', () => {
       if (seen) await expect(stat(out)).rejects.toThrow();
     }
     // The rerun finishes; what was cached is not asked again.
-    const cachedRefs = (await filesUnder(join(cache, 'refs'))).length;
+    const cachedRefs = (await new ContentCache(cache).refUrls()).length;
     proxy.reset();
     const { done } = runCli(recipe);
     expect(await done).toBe(0);
     const asked = [...proxy.stats().asks.values()].reduce((a, b) => a + b, 0);
-    const totalRefs = (await filesUnder(join(cache, 'refs'))).length;
+    const totalRefs = (await new ContentCache(cache).refUrls()).length;
     expect(asked).toBe(totalRefs - cachedRefs);
     const got = await hashTree(out);
     expect([...got.entries()]).toEqual([...expected.entries()]);

@@ -1,9 +1,10 @@
 import { describe, expect, it } from 'vitest';
 import nock from 'nock';
-import { readdir, writeFile } from 'node:fs/promises';
+import { appendFile, readdir, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { FetchError } from '../../src/errors.ts';
 import { lockFrom } from '../../src/net/lock.ts';
+import { ContentCache, parseJournal } from '../../src/net/cache.ts';
 import { sha256Hex } from '../../src/util/hash.ts';
 import { JPEG_HEAD, makeFetcher, nockSandbox } from './harness.ts';
 
@@ -294,6 +295,27 @@ describe('cache, lock and modes', () => {
     );
     const files = await walk(box.dir);
     expect(files.some((f) => f.startsWith('.tmp-'))).toBe(false);
-    expect(files.length).toBe(2); // one object, one ref
+    expect(files.length).toBe(2); // one object, one ref journal
+  });
+  it('keeps refs in append-only journals: the last whole line wins, a torn line is skipped', async () => {
+    nock(HOST).get('/j1').reply(...json({ j: 1 }));
+    nock(HOST).get('/j2').reply(...json({ j: 2 }));
+    const a = makeFetcher(box.dir);
+    const one = await a.fetcher.get(`${HOST}/j1`, 'json');
+    // A second process appends to the same cache while the first is open.
+    const b = makeFetcher(box.dir);
+    const two = await b.fetcher.get(`${HOST}/j2`, 'json');
+    const fresh = new ContentCache(box.dir);
+    expect(await fresh.refUrls()).toEqual([`${HOST}/j1`, `${HOST}/j2`].sort());
+    expect((await fresh.getRef(`${HOST}/j2`))?.sha256).toBe(two.facts.sha256);
+    // A crash in the middle of an append leaves a torn line; the next append lands right after it.
+    const journals = (await readdir(join(box.dir, 'refs'))).sort();
+    expect(journals).toHaveLength(2); // one per writer: two processes never append to one file
+    const journal = join(box.dir, 'refs', journals[1]);
+    await appendFile(journal, '{"url":"' + HOST + '/j1","sha256":"ab');
+    await appendFile(journal, JSON.stringify({ ...one.facts, etag: '"later"' }) + '\n');
+    const after = new ContentCache(box.dir);
+    expect((await after.getRef(`${HOST}/j1`))?.etag).toBe('"later"');
+    expect(parseJournal('{"url":"u","sha256":"12"}\nnot json\n{"url":"u"\nnull\n')).toEqual(new Map());
   });
 });
