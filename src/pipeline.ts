@@ -15,6 +15,7 @@ import { resolveSources, ResolvedSources } from './sources/resolve.ts';
 import { FolderTransaction } from './dataset/write-folder.ts';
 import { serialiseLock } from './net/lock.ts';
 import { sha256Hex } from './util/hash.ts';
+import { mapLines } from './dataset/text-file.ts';
 
 export interface BuildSummary {
   patches: number;
@@ -203,24 +204,22 @@ export async function buildFromHarvest(recipe: Recipe, opts: RunOptions, input: 
 
 /** The split of every group in a previous index.jsonl (the user's file: a problem is exit 2 with the line). */
 async function readPreviousSplits(path: string): Promise<Map<string, SplitName>> {
-  let text: string;
+  const out = new Map<string, SplitName>();
   try {
-    text = await readFile(path, 'utf8');
+    await mapLines(path, (line, n) => {
+      let r: { group?: unknown; split?: unknown };
+      try {
+        r = JSON.parse(line);
+      } catch {
+        throw new InputError('E_RECIPE_INVALID', path, `/${n}`, 'line is not JSON (expected the index.jsonl of a swatchbook dataset)');
+      }
+      if (typeof r.group !== 'string' || !SPLITS.includes(r.split as SplitName)) throw new InputError('E_RECIPE_INVALID', path, `/${n}`, 'expected a record with "group" and "split"');
+      if (!out.has(r.group)) out.set(r.group, r.split as SplitName);
+    });
   } catch (err) {
+    if (err instanceof InputError) throw err;
     throw new InputError('E_RECIPE_INVALID', path, '', `cannot read the previous index for --keep-splits (${(err as NodeJS.ErrnoException).code ?? (err as Error).message})`);
   }
-  const out = new Map<string, SplitName>();
-  text.split('\n').forEach((line, n) => {
-    if (!line.trim()) return;
-    let r: { group?: unknown; split?: unknown };
-    try {
-      r = JSON.parse(line);
-    } catch {
-      throw new InputError('E_RECIPE_INVALID', path, `/${n}`, 'line is not JSON (expected the index.jsonl of a swatchbook dataset)');
-    }
-    if (typeof r.group !== 'string' || !SPLITS.includes(r.split as SplitName)) throw new InputError('E_RECIPE_INVALID', path, `/${n}`, 'expected a record with "group" and "split"');
-    if (!out.has(r.group)) out.set(r.group, r.split as SplitName);
-  });
   return out;
 }
 

@@ -3,7 +3,7 @@ import { basename, dirname, extname, join, resolve } from 'node:path';
 import { InputError, UsageError } from './errors.ts';
 import { decodeRgb, extractRgb } from './image/pixels.ts';
 import { describePatch } from './probe/describe.ts';
-import { parseIndex } from './dataset/records.ts';
+import { IndexRecord, readIndexFile } from './dataset/records.ts';
 import { describeFiles } from './image/describe-pool.ts';
 import { crossDomain, CrossDomainReport, probe, ProbePatch, ProbeReport, QueryPatch } from './probe/probe.ts';
 import { byString, seededUnit } from './util/hash.ts';
@@ -24,14 +24,14 @@ export async function runProbe(
   onProgress?: (done: number, total: number) => void,
   options: { queries?: string } = {},
 ): Promise<{ report: ProbeReport & { queries?: QueriesReport }; file: string }> {
-  let index: string, card: { collection?: { seed?: string; recipe?: { dedupe?: { maxDistance?: number }; patch?: { size?: number } } } };
+  let index: IndexRecord[], card: { collection?: { seed?: string; recipe?: { dedupe?: { maxDistance?: number }; patch?: { size?: number } } } };
   try {
-    index = await readFile(join(dataset, 'index.jsonl'), 'utf8');
+    index = await readIndexFile(join(dataset, 'index.jsonl'));
     card = JSON.parse(await readFile(join(dataset, 'card.json'), 'utf8'));
   } catch {
     throw new UsageError(`${dataset} is not a swatchbook dataset (index.jsonl and card.json are needed)`);
   }
-  const records = parseIndex(index).filter((r) => r.split === 'train' || r.split === 'test');
+  const records = index.filter((r) => r.split === 'train' || r.split === 'test');
   const features = await describeFiles(records.map((r) => join(dataset, r.file)), { ...(onProgress ? { onProgress } : {}) });
   const patches: ProbePatch[] = records.map((r, i) => ({ id: r.id, split: r.split, label: r.label, phash: r.phash, features: features[i]! }));
   const seed = card.collection?.seed ?? 'swatchbook';

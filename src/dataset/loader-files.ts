@@ -1,5 +1,6 @@
 import { SPLITS, SplitName } from '../split/assign.ts';
-import { byString, sha256Hex } from '../util/hash.ts';
+import { byString } from '../util/hash.ts';
+import type { WrittenFile } from './text-file.ts';
 import type { Card } from './card.ts';
 import type { IndexRecord } from './records.ts';
 
@@ -32,12 +33,12 @@ export function metadataLine(r: IndexRecord): string {
   });
 }
 
-/** The metadata files by dataset-relative path, for the splits that hold patches. */
-export function splitMetadataFiles(records: readonly IndexRecord[]): Map<string, string> {
-  const out = new Map<string, string>();
+/** The lines of each metadata file (without newlines) by dataset-relative path, for the splits that hold patches. */
+export function splitMetadataLines(records: readonly IndexRecord[]): Map<string, string[]> {
+  const out = new Map<string, string[]>();
   for (const s of SPLITS) {
     const lines = records.filter((r) => r.split === s).sort((a, b) => byString(`${a.label}/${a.id}`, `${b.label}/${b.id}`)).map(metadataLine);
-    if (lines.length) out.set(`patches/${s}/metadata.jsonl`, `${lines.join('\n')}\n`);
+    if (lines.length) out.set(`patches/${s}/metadata.jsonl`, lines);
   }
   return out;
 }
@@ -86,8 +87,8 @@ export interface CroissantInput {
   card: Card;
   description: string;
   records: readonly IndexRecord[];
-  /** Text files of the dataset by relative path (index.jsonl, the metadata files, card.json…), to list with their sha256. */
-  files: ReadonlyMap<string, string | Buffer>;
+  /** Files of the dataset by relative path (index.jsonl, the metadata files, card.json, shards…) with their digests, to list. */
+  files: ReadonlyMap<string, WrittenFile>;
   contact?: string;
 }
 
@@ -101,14 +102,14 @@ const MIME: Record<string, string> = { '.tar': 'application/x-tar', '.jsonl': 'a
 export function croissantDocument(i: CroissantInput): Record<string, unknown> {
   const card = i.card;
   const licences = [...new Set(i.records.map((r) => r.rights).filter((r): r is string => !!r))].sort(byString);
-  const fileObjects = [...i.files.entries()].sort((a, b) => byString(a[0], b[0])).map(([path, text]) => ({
+  const fileObjects = [...i.files.entries()].sort((a, b) => byString(a[0], b[0])).map(([path, file]) => ({
     '@type': 'cr:FileObject',
     '@id': path,
     name: path,
     contentUrl: path,
-    contentSize: `${Buffer.byteLength(text)} B`,
+    contentSize: `${file.size} B`,
     encodingFormat: MIME[path.slice(path.lastIndexOf('.'))] ?? 'application/octet-stream',
-    sha256: sha256Hex(text),
+    sha256: file.sha256,
   }));
   const fromIndex = (id: string, column: string, dataType: unknown, extra: Record<string, unknown> = {}) => ({
     '@type': 'cr:Field',

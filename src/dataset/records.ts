@@ -1,5 +1,6 @@
 import type { Rect } from '../geometry/rect.ts';
 import type { SplitName } from '../split/assign.ts';
+import { mapLines } from './text-file.ts';
 
 /** One line of index.jsonl: a patch and its provenance. Keys are written in this order. */
 export interface IndexRecord {
@@ -37,8 +38,18 @@ export interface IndexRecord {
   partOf: string[];
 }
 
+/** The lines of index.jsonl, each with its newline (written one by one: the whole text may exceed a string). */
+export function* indexLines(records: readonly IndexRecord[]): Generator<string> {
+  for (const r of records) yield `${JSON.stringify(r)}\n`;
+}
+
 export function serialiseIndex(records: readonly IndexRecord[]): string {
-  return records.map((r) => JSON.stringify(r)).join('\n') + (records.length ? '\n' : '');
+  return [...indexLines(records)].join('');
+}
+
+/** The records of an index.jsonl file, read a line at a time (an index of any size). */
+export function readIndexFile(path: string): Promise<IndexRecord[]> {
+  return mapLines(path, (line) => JSON.parse(line) as IndexRecord);
 }
 
 export function parseIndex(text: string): IndexRecord[] {

@@ -1,7 +1,7 @@
 import { readFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { UsageError } from '../errors.ts';
-import { parseIndex, IndexRecord } from './records.ts';
+import { readIndexFile, IndexRecord } from './records.ts';
 
 /** What trace reads from the dataset's lock.json: the response facts by request URL. */
 interface LockedFacts {
@@ -15,13 +15,13 @@ export interface TraceLink {
 
 /** The chain of provenance of one patch, from its file back to the rights statement. */
 export async function tracePatch(dataset: string, patchId: string): Promise<{ record: IndexRecord; chain: TraceLink[] }> {
-  let index: string;
+  let records: IndexRecord[];
   try {
-    index = await readFile(join(dataset, 'index.jsonl'), 'utf8');
+    records = await readIndexFile(join(dataset, 'index.jsonl'));
   } catch {
     throw new UsageError(`no index.jsonl in ${dataset}; is it a swatchbook dataset folder?`);
   }
-  const record = parseIndex(index).find((r) => r.id === patchId);
+  const record = records.find((r) => r.id === patchId);
   if (!record) throw new UsageError(`patch ${patchId} is not in ${dataset}/index.jsonl`);
   let lock: LockedFacts = { entries: {} };
   try {

@@ -6,9 +6,11 @@ import { SPLITS } from '../split/assign.ts';
 import type { AssembledDataset, ToolVersions } from './assemble.ts';
 import { attributionMarkdown } from './attribution.ts';
 import { renderCardMarkdown } from './card.ts';
-import { croissantDocument, splitMetadataFiles } from './loader-files.ts';
+import { croissantDocument, splitMetadataLines } from './loader-files.ts';
 import { provenanceDocument } from './provenance.ts';
-import { IndexRecord, serialiseIndex } from './records.ts';
+import { IndexRecord, indexLines } from './records.ts';
+import { digestOf, WrittenFile, writeTextParts } from './text-file.ts';
+import { prettyJsonParts } from '../util/pretty-json.ts';
 import { tarArchive } from './tar.ts';
 import type { FolderTransaction } from './write-folder.ts';
 
@@ -25,24 +27,25 @@ export async function writeDataset(tx: FolderTransaction, staging: string, data:
   for (const dir of new Set(records.map((r) => dirname(tx.path(r.file))))) await mkdir(dir, { recursive: true });
   const moveLimit = pLimit(16);
   await Promise.all(records.map((r) => moveLimit(() => rename(join(staging, `${r.id}.png`), tx.path(r.file)))));
-  const texts = new Map<string, string>([
-    ['index.jsonl', serialiseIndex(records)],
-    ...SPLITS.map((s) => [`splits/${s}.txt`, records.filter((r) => r.split === s).map((r) => `${r.id}\n`).join('')] as [string, string]),
-    ...splitMetadataFiles(records),
-    ['card.json', `${JSON.stringify(card, null, 2)}\n`],
-    ['card.md', renderCardMarkdown(card)],
-    ['lock.json', lockText],
-    ['provenance.jsonld', `${JSON.stringify(provenanceDocument(recipe.name, tool, records), null, 2)}\n`],
-    ['failures.jsonl', failures.map((f) => JSON.stringify(f)).join('\n') + (failures.length ? '\n' : '')],
-    ['ATTRIBUTION.md', attributionMarkdown(recipe.name, records)],
-    ['canvases.json', `${JSON.stringify(data.canvases, null, 2)}\n`],
-    ['skipped.jsonl', data.skipped.map((x) => JSON.stringify(x)).join('\n') + (data.skipped.length ? '\n' : '')],
-  ]);
-  const shards = recipe.shards ? await writeShards(tx, records, recipe.shards.patchesPerShard) : new Map<string, Buffer>();
-  const croissant = croissantDocument({ card, description: recipe.description, records, files: new Map<string, string | Buffer>([...texts, ...shards]), ...(recipe.network.contact ? { contact: recipe.network.contact } : {}) });
-  texts.set('croissant.json', `${JSON.stringify(croissant, null, 2)}\n`);
   await mkdir(tx.path('splits'), { recursive: true });
-  for (const [path, text] of texts) await writeFile(tx.path(path), text);
+  // Files that grow with the patches are written line by line (a million patches make
+  // gigabytes of text); each file's digest is taken as it is written, for croissant.json.
+  const files = new Map<string, WrittenFile>();
+  const write = async (path: string, parts: Iterable<string>) => files.set(path, await writeTextParts(tx.path(path), parts));
+  await write('index.jsonl', indexLines(records));
+  for (const s of SPLITS) await write(`splits/${s}.txt`, idLines(records, s));
+  for (const [path, lines] of splitMetadataLines(records)) await write(path, linesOf(lines));
+  await write('card.json', [`${JSON.stringify(card, null, 2)}\n`]);
+  await write('card.md', [renderCardMarkdown(card)]);
+  await write('lock.json', [lockText]);
+  await write('provenance.jsonld', [...prettyJsonParts(provenanceDocument(recipe.name, tool, records)), '\n']);
+  await write('failures.jsonl', linesOf(failures.map((f) => JSON.stringify(f))));
+  await write('ATTRIBUTION.md', [attributionMarkdown(recipe.name, records)]);
+  await write('canvases.json', [`${JSON.stringify(data.canvases, null, 2)}\n`]);
+  await write('skipped.jsonl', linesOf(data.skipped.map((x) => JSON.stringify(x))));
+  if (recipe.shards) for (const [path, digest] of await writeShards(tx, records, recipe.shards.patchesPerShard)) files.set(path, digest);
+  const croissant = croissantDocument({ card, description: recipe.description, records, files, ...(recipe.network.contact ? { contact: recipe.network.contact } : {}) });
+  await write('croissant.json', [`${JSON.stringify(croissant, null, 2)}\n`]);
   await rm(staging, { recursive: true, force: true });
 }
 
@@ -51,8 +54,8 @@ export async function writeDataset(tx: FolderTransaction, staging: string, data:
  * order, `<id>.png` then `<id>.json` (the index record) next to each other so one
  * sample is a run of consecutive members with one key. Returns the archives by path.
  */
-async function writeShards(tx: FolderTransaction, records: readonly IndexRecord[], perShard: number): Promise<Map<string, Buffer>> {
-  const out = new Map<string, Buffer>();
+async function writeShards(tx: FolderTransaction, records: readonly IndexRecord[], perShard: number): Promise<Map<string, WrittenFile>> {
+  const out = new Map<string, WrittenFile>();
   for (const split of SPLITS) {
     const inSplit = records.filter((r) => r.split === split);
     for (let start = 0, n = 0; start < inSplit.length; start += perShard, n++) {
@@ -65,8 +68,18 @@ async function writeShards(tx: FolderTransaction, records: readonly IndexRecord[
       const archive = tarArchive(entries);
       await mkdir(dirname(tx.path(path)), { recursive: true });
       await writeFile(tx.path(path), archive);
-      out.set(path, archive);
+      out.set(path, digestOf(archive));
     }
   }
   return out;
+}
+
+/** Each line with its newline: the text of a JSON Lines or list file (empty when there are none). */
+function* linesOf(lines: Iterable<string>): Generator<string> {
+  for (const line of lines) yield `${line}\n`;
+}
+
+/** `splits/<split>.txt`: the split's patch ids, one per line, in index order. */
+function* idLines(records: readonly IndexRecord[], split: string): Generator<string> {
+  for (const r of records) if (r.split === split) yield `${r.id}\n`;
 }

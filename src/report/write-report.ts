@@ -3,7 +3,7 @@ import { basename, dirname, join, resolve } from 'node:path';
 import sharp from 'sharp';
 import { UsageError } from '../errors.ts';
 import type { CanvasFacts } from '../dataset/canvas-facts.ts';
-import { parseIndex, IndexRecord } from '../dataset/records.ts';
+import { readIndexFile, IndexRecord } from '../dataset/records.ts';
 import { stitchCrop } from '../cut/stitch.ts';
 import { blit, decodeRgb, RgbImage, resizeRgb } from '../image/pixels.ts';
 import { ContentCache } from '../net/cache.ts';
@@ -43,14 +43,17 @@ export interface ReportSummary {
  */
 export async function writeReport(dataset: string, opts: { outDir?: string; cacheDir?: string } = {}): Promise<ReportSummary> {
   const outDir = opts.outDir ?? defaultReportDir(dataset);
+  const missing = (name: string) => new UsageError(`${dataset} is not a swatchbook dataset with a report's inputs (${name} is missing; rebuild it with this version)`);
   const read = async (name: string) => {
     try {
       return await readFile(join(dataset, name), 'utf8');
     } catch {
-      throw new UsageError(`${dataset} is not a swatchbook dataset with a report's inputs (${name} is missing; rebuild it with this version)`);
+      throw missing(name);
     }
   };
-  const records = parseIndex(await read('index.jsonl'));
+  const records = await readIndexFile(join(dataset, 'index.jsonl')).catch((err: NodeJS.ErrnoException) => {
+    throw err.code === 'ENOENT' ? missing('index.jsonl') : err;
+  });
   const card = JSON.parse(await read('card.json'));
   const canvases: CanvasFacts[] = JSON.parse(await read('canvases.json'));
   const lock = JSON.parse(await read('lock.json')) as { entries: Record<string, { sha256: string }> };
