@@ -146,13 +146,13 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       if (o.shards !== undefined) {
         const n = positiveInt(o.shards, '--shards');
         const dir = o.outPlan ? resolve(o.outPlan) : join(dirname(recipe.file), `${recipe.name}-plan`);
-        const { planShards } = await import('../shard/shard-run.ts');
+        const { planShards, PLAN_FILE } = await import('../shard/shard-run.ts');
         const folder = await planShards(recipe, n, dir, runOptions(o, rep));
         print(o, [
-          `plan: ${join(dir, 'plan.json')} (${folder.plan.crops.length} crops, ${folder.plan.patches.length} patches planned)`,
+          `plan: ${join(dir, PLAN_FILE)} (${folder.plan.crops.length} crops, ${folder.plan.patches.length} patches planned)`,
           ...folder.shards.map((x) => `  shard ${x.index}: ${x.crops.length} crops, about ${x.estimatedRequests} requests, hosts ${x.hosts.join(', ') || '(none)'}`),
           `next: swatchbook harvest --plan ${dir} --shard K (K = 0…${n - 1}), then swatchbook merge --plan ${dir}`,
-        ].join('\n'), { plan: join(dir, 'plan.json'), shards: folder.shards.map((x) => ({ ...x, crops: x.crops.length })), failures: folder.sources.failures });
+        ].join('\n'), { plan: join(dir, PLAN_FILE), shards: folder.shards.map((x) => ({ ...x, crops: x.crops.length })), failures: folder.sources.failures });
         if (folder.sources.failures.length) exitCode = 1;
         return;
       }
@@ -295,7 +295,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       const recipe = await recipeWith(path, o);
       const n = positiveInt(o.shards, '--shards');
       const dir = o.outPlan ? resolve(o.outPlan) : join(dirname(recipe.file), `${recipe.name}-plan`);
-      const [{ planShards }, { harvestArrayScript, mergeScript, shellQuote }, { writeFile: write }, { execFileSync }] = await Promise.all([
+      const [{ planShards, PLAN_FILE }, { harvestArrayScript, mergeScript, shellQuote }, { writeFile: write }, { execFileSync }] = await Promise.all([
         import('../shard/shard-run.ts'), import('../shard/slurm-script.ts'), import('node:fs/promises'), import('node:child_process'),
       ]);
       const folder = await planShards(recipe, n, dir, runOptions(o, rep));
@@ -311,11 +311,11 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
         jobs = { harvest: harvestJob, merge: mergeJob };
       }
       print(o, [
-        `plan: ${join(dir, 'plan.json')}, ${n} shard(s) by host: ${folder.shards.map((x) => `${x.index}: ${x.hosts.join(', ') || '(none)'} (${x.crops.length} crops)`).join('; ')}`,
+        `plan: ${join(dir, PLAN_FILE)}, ${n} shard(s) by host: ${folder.shards.map((x) => `${x.index}: ${x.hosts.join(', ') || '(none)'} (${x.crops.length} crops)`).join('; ')}`,
         `job array: ${harvestFile}`,
         `merge job: ${mergeFile}`,
         jobs ? `submitted: harvest array ${jobs.harvest}, merge ${jobs.merge} (after the array succeeds)` : `submit: sbatch ${harvestFile}, then sbatch --dependency=afterok:<array id> ${mergeFile}`,
-      ].join('\n'), { plan: join(dir, 'plan.json'), harvestScript: harvestFile, mergeScript: mergeFile, ...(jobs ? { jobs } : {}) });
+      ].join('\n'), { plan: join(dir, PLAN_FILE), harvestScript: harvestFile, mergeScript: mergeFile, ...(jobs ? { jobs } : {}) });
       if (folder.sources.failures.length) exitCode = 1;
     });
 

@@ -5,11 +5,12 @@
  * different bodies refused) and runs the same build stages as a single `run`, so
  * the merged dataset is byte-identical to one machine's.
  */
-import { mkdir, readFile, rm } from 'node:fs/promises';
+import { mkdir, readFile, rename, rm } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
 import { UsageError } from '../errors.ts';
 import { harvestCrops, HarvestResult, PieceOutcome } from '../harvest/harvest.ts';
-import { writeFileAtomic } from '../net/atomic-write.ts';
+import { processTag, writeFileAtomic } from '../net/atomic-write.ts';
+import { mapLines, writeTextParts } from '../dataset/text-file.ts';
 import { ContentCache, ResponseFacts } from '../net/cache.ts';
 import type { DatasetPlan } from '../plan/plan-dataset.ts';
 import { buildFromHarvest, BuildSummary, defaultCacheDir, harvestThumbnails, openFetcher, planRecipe, RunOptions } from '../pipeline.ts';
@@ -19,9 +20,12 @@ import type { ResolvedSources } from '../sources/resolve.ts';
 import { byString } from '../util/hash.ts';
 import { hostOf, partitionByHost, ShardPlan } from './partition.ts';
 
-export const PLAN_DIR_VERSION = 1;
+export const PLAN_DIR_VERSION = 2;
 
-/** `plan.json` of a plan folder: everything a shard or the merge needs besides the recipe file. */
+/** The parts of a plan that grow with the dataset: written one element per line. */
+const PLAN_LISTS = ['crops', 'patches', 'regions', 'skipped'] as const;
+
+/** `plan.jsonl` of a plan folder: everything a shard or the merge needs besides the recipe file. */
 export interface PlanFolder {
   version: number;
   /** The recipe, by absolute path: shards and the merge read it there (a shared file system). */
@@ -61,19 +65,52 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
     trustedHosts: [...new Set(fetcher.options.trustedHosts ?? [])].sort(byString),
   };
   await mkdir(dir, { recursive: true });
-  await writeFileAtomic(join(dir, 'plan.json'), `${JSON.stringify(folder)}\n`);
+  const tmp = join(dir, `.tmp-${processTag}-plan.jsonl`);
+  await writeTextParts(tmp, planFolderLines(folder));
+  await rename(tmp, join(dir, PLAN_FILE));
   await writeFileAtomic(join(dir, 'shards.json'), `${JSON.stringify(folder.shards.map((s) => ({ ...s, crops: s.crops.length })), null, 2)}\n`);
   return folder;
 }
 
+export const PLAN_FILE = 'plan.jsonl';
+
+/**
+ * The plan folder as JSON Lines: a first line with everything but the plan's lists and
+ * contexts, then one line per crop, patch, region, skip and crop context. A plan of a
+ * million patches is over a gigabyte of JSON, more than one string can hold, so it is
+ * never one JSON text.
+ */
+export function* planFolderLines(folder: PlanFolder): Generator<string> {
+  const { plan } = folder;
+  yield `${JSON.stringify({ ...folder, plan: { ...plan, crops: [], patches: [], regions: [], skipped: [], contexts: {} } })}\n`;
+  for (const list of PLAN_LISTS) for (const item of plan[list]) yield `${JSON.stringify({ [list]: item })}\n`;
+  for (const key of Object.keys(plan.contexts)) yield `${JSON.stringify({ context: key, value: plan.contexts[key] })}\n`;
+}
+
 export async function readPlanFolder(dir: string): Promise<PlanFolder> {
-  let folder: PlanFolder;
+  const file = join(dir, PLAN_FILE);
+  let folder: PlanFolder | undefined;
   try {
-    folder = JSON.parse(await readFile(join(dir, 'plan.json'), 'utf8'));
+    await mapLines(file, (line, n) => {
+      const value = JSON.parse(line) as Record<string, unknown>;
+      if (n === 0) {
+        folder = value as unknown as PlanFolder;
+        if (folder.version !== PLAN_DIR_VERSION) throw new UsageError(`${file} is of version ${folder.version}, this swatchbook reads ${PLAN_DIR_VERSION}`);
+        return;
+      }
+      const plan = folder!.plan;
+      if (typeof value.context === 'string') plan.contexts[value.context] = value.value as DatasetPlan['contexts'][string];
+      else {
+        const list = PLAN_LISTS.find((l) => l in value);
+        if (!list) throw new Error(`line ${n + 1} is not part of a plan`);
+        (plan[list] as unknown[]).push(value[list]);
+      }
+    });
   } catch (err) {
-    throw new UsageError(`${join(dir, 'plan.json')} cannot be read (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); write it with swatchbook plan <recipe> --shards N --out-plan ${dir}`);
+    if (err instanceof UsageError) throw err;
+    throw new UsageError(`${file} cannot be read (${(err as NodeJS.ErrnoException).code ?? (err as Error).message}); write it with swatchbook plan <recipe> --shards N --out-plan ${dir}`);
   }
-  if (folder.version !== PLAN_DIR_VERSION) throw new UsageError(`${join(dir, 'plan.json')} is of version ${folder.version}, this swatchbook reads ${PLAN_DIR_VERSION}`);
+  if (!folder) throw new UsageError(`${file} is empty; write it with swatchbook plan <recipe> --shards N --out-plan ${dir}`);
   return folder;
 }
 

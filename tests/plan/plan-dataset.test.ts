@@ -6,6 +6,10 @@ import { normaliseRecipe } from '../../src/recipe/load.ts';
 import type { RegionAnnotation } from '../../src/annotation/web-annotation.ts';
 import type { ResolvedSources } from '../../src/sources/resolve.ts';
 import { intersects } from '../../src/geometry/rect.ts';
+import { mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { PLAN_DIR_VERSION, PLAN_FILE, PlanFolder, planFolderLines, readPlanFolder } from '../../src/shard/shard-run.ts';
 
 const B = 'https://plan.example.org';
 function sources(annotations: RegionAnnotation[]): ResolvedSources {
@@ -61,6 +65,22 @@ describe('planning a dataset (pure)', () => {
     expect(JSON.parse(text)).toEqual(plan);
     expect(text).not.toMatch(/\{\}/); // no Map or Set flattened into an empty object
     expect(Object.keys(plan.contexts)).toEqual(plan.crops.map((c) => c.key));
+  });
+  it('a plan folder (plan.jsonl, a line per crop, patch, region, skip and context) reads back as the same plan, key order included', async () => {
+    const plan = planDataset(recipe('annotation'), sources([...annotations, anno('tiny', 'oak', [rect(2, 700, 50, 40, 40)])]));
+    const folder: PlanFolder = { version: PLAN_DIR_VERSION, recipeFile: '/r/recipe.json', shards: [], plan, sources: { failures: [], notes: [], documents: [] }, lockFacts: [], trustedHosts: ['127.0.0.1'] };
+    const lines = [...planFolderLines(folder)];
+    expect(lines.length).toBe(1 + plan.crops.length + plan.patches.length + plan.regions.length + plan.skipped.length + Object.keys(plan.contexts).length);
+    const dir = await mkdtemp(join(tmpdir(), 'swatchbook-plan-folder-'));
+    try {
+      await writeFile(join(dir, PLAN_FILE), lines.join(''));
+      const back = await readPlanFolder(dir);
+      expect(JSON.stringify(back)).toBe(JSON.stringify(folder));
+      await writeFile(join(dir, PLAN_FILE), lines[0]!.replace(`"version":${PLAN_DIR_VERSION}`, '"version":1'));
+      await expect(readPlanFolder(dir)).rejects.toThrow(/version 1, this swatchbook reads 2/);
+    } finally {
+      await rm(dir, { recursive: true, force: true });
+    }
   });
   it('negative positions do not depend on input order', () => {
     const a = planDataset(recipe('canvas'), sources(annotations));
