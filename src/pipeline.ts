@@ -15,7 +15,7 @@ import { resolveSources, ResolvedSources } from './sources/resolve.ts';
 import { FolderTransaction } from './dataset/write-folder.ts';
 import { serialiseLock } from './net/lock.ts';
 import { sha256Hex } from './util/hash.ts';
-import { mapLines } from './dataset/text-file.ts';
+import { mapLines } from './util/text-file.ts';
 
 export interface BuildSummary {
   patches: number;

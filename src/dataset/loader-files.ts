@@ -1,6 +1,6 @@
 import { SPLITS, SplitName } from '../split/assign.ts';
 import { byString } from '../util/hash.ts';
-import type { WrittenFile } from './text-file.ts';
+import type { WrittenFile } from '../util/text-file.ts';
 import type { Card } from './card.ts';
 import type { IndexRecord } from './records.ts';
 

@@ -1,6 +1,6 @@
 import type { Rect } from '../geometry/rect.ts';
 import type { SplitName } from '../split/assign.ts';
-import { mapLines } from './text-file.ts';
+import { mapLines } from '../util/text-file.ts';
 
 /** One line of index.jsonl: a patch and its provenance. Keys are written in this order. */
 export interface IndexRecord {

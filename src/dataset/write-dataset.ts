@@ -9,7 +9,7 @@ import { renderCardMarkdown } from './card.ts';
 import { croissantDocument, splitMetadataLines } from './loader-files.ts';
 import { provenanceDocument } from './provenance.ts';
 import { IndexRecord, indexLines } from './records.ts';
-import { digestOf, WrittenFile, writeTextParts } from './text-file.ts';
+import { digestOf, WrittenFile, writeTextParts } from '../util/text-file.ts';
 import { prettyJsonParts } from '../util/pretty-json.ts';
 import { tarArchive } from './tar.ts';
 import type { FolderTransaction } from './write-folder.ts';

@@ -2,6 +2,7 @@ import { createWriteStream, WriteStream } from 'node:fs';
 import { mkdir, readdir, readFile, rm } from 'node:fs/promises';
 import { join } from 'node:path';
 import { byString, sha256Hex } from '../util/hash.ts';
+import { forEachLine } from '../util/text-file.ts';
 import { processTag, writeFileAtomic } from './atomic-write.ts';
 
 /** A journal left without writes this long is closed (a library user may open many caches). */
@@ -50,8 +51,10 @@ export class ContentCache {
         const refs = new Map<string, ResponseFacts>();
         // Journals oldest first, lines in file order: the last line for a URL wins.
         for (const name of names.filter((n) => n.endsWith('.jsonl')).sort(byString)) {
-          const text = await readFile(join(this.dir, 'refs', name), 'utf8').catch(() => '');
-          for (const [url, facts] of parseJournal(text)) refs.set(url, facts);
+          await forEachLine(join(this.dir, 'refs', name), (line) => {
+            const facts = journalLine(line);
+            if (facts) refs.set(facts.url, facts);
+          }).catch(() => undefined); // a journal removed meanwhile holds nothing
         }
         return refs;
       },
@@ -192,11 +195,17 @@ function pidAlive(pid: number): boolean {
 export function parseJournal(text: string): Map<string, ResponseFacts> {
   const refs = new Map<string, ResponseFacts>();
   for (const line of text.split('\n')) {
-    if (!line) continue;
-    const facts = parseLine(line) ?? parseLine(line.slice(Math.max(0, line.lastIndexOf('{"url":'))));
-    if (facts && typeof facts === 'object' && typeof facts.url === 'string' && typeof facts.sha256 === 'string' && /^[0-9a-f]{64}$/.test(facts.sha256)) refs.set(facts.url, facts);
+    const facts = journalLine(line);
+    if (facts) refs.set(facts.url, facts);
   }
   return refs;
+}
+
+/** The ref on one journal line, or undefined for a blank, torn or foreign line. */
+function journalLine(line: string): ResponseFacts | undefined {
+  if (!line) return undefined;
+  const facts = parseLine(line) ?? parseLine(line.slice(Math.max(0, line.lastIndexOf('{"url":'))));
+  return facts && typeof facts === 'object' && typeof facts.url === 'string' && typeof facts.sha256 === 'string' && /^[0-9a-f]{64}$/.test(facts.sha256) ? facts : undefined;
 }
 
 function parseLine(line: string): ResponseFacts | undefined {

@@ -10,7 +10,7 @@ import { join, resolve } from 'node:path';
 import { UsageError } from '../errors.ts';
 import { harvestCrops, HarvestResult, PieceOutcome } from '../harvest/harvest.ts';
 import { processTag, writeFileAtomic } from '../net/atomic-write.ts';
-import { mapLines, writeTextParts } from '../dataset/text-file.ts';
+import { mapLines, writeTextParts } from '../util/text-file.ts';
 import { ContentCache, ResponseFacts } from '../net/cache.ts';
 import type { DatasetPlan } from '../plan/plan-dataset.ts';
 import { buildFromHarvest, BuildSummary, defaultCacheDir, harvestThumbnails, openFetcher, planRecipe, RunOptions } from '../pipeline.ts';

@@ -56,16 +56,22 @@ export function digestOf(bytes: Buffer): WrittenFile {
 }
 
 /**
- * Each non-blank line of a text file, read a piece at a time (a file of any size;
- * a whole-file string stops at about half a gigabyte). Resolves to the lines' results in order.
+ * Calls `fn` with each non-blank line of a text file and its 0-based line number,
+ * reading a piece at a time (a file of any size; a whole-file string stops at
+ * about half a gigabyte).
  */
-export async function mapLines<T>(path: string, fn: (line: string, index: number) => T): Promise<T[]> {
-  const out: T[] = [];
+export async function forEachLine(path: string, fn: (line: string, index: number) => void): Promise<void> {
   const lines = createInterface({ input: createReadStream(path, { encoding: 'utf8' }), crlfDelay: Infinity });
   let n = 0;
   for await (const line of lines) {
-    if (line.trim() !== '') out.push(fn(line, n));
+    if (line.trim() !== '') fn(line, n);
     n++;
   }
+}
+
+/** The results of `fn` over each non-blank line of a text file, in order (see `forEachLine`). */
+export async function mapLines<T>(path: string, fn: (line: string, index: number) => T): Promise<T[]> {
+  const out: T[] = [];
+  await forEachLine(path, (line, n) => out.push(fn(line, n)));
   return out;
 }

@@ -3,7 +3,7 @@ import { createHash } from 'node:crypto';
 import { mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { mapLines, writeTextParts } from '../../src/dataset/text-file.ts';
+import { mapLines, writeTextParts } from '../../src/util/text-file.ts';
 import { prettyJsonParts } from '../../src/util/pretty-json.ts';
 
 describe('text written and read in parts', () => {
