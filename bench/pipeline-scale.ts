@@ -44,7 +44,7 @@ await writeFile(join(work, 'manifest.json'), JSON.stringify(manifest));
 await writeFile(join(work, 'recipe.json'), JSON.stringify(recipe));
 
 const result = await new Promise<{ wallS: number; maxRssKb: number; code: number | null; stderr: string }>((done) => {
-  const child = spawn('/usr/bin/time', ['-f', 'TIME %e %M', process.execPath, BIN, 'run', join(work, 'recipe.json'), '--out', join(work, 'dataset'), '--cache', join(work, 'cache'), '--no-probe', '--no-report', '--quiet'], { stdio: ['ignore', 'ignore', 'pipe'] });
+  const child = spawn('/usr/bin/time', ['-f', 'TIME %e %M', process.execPath, ...(process.env.BENCH_PROFILE ? ['--cpu-prof', '--cpu-prof-dir', process.env.BENCH_PROFILE] : []), BIN, 'run', join(work, 'recipe.json'), '--out', join(work, 'dataset'), '--cache', join(work, 'cache'), '--no-probe', '--no-report', '--quiet'], { stdio: ['ignore', 'ignore', 'pipe'] });
   let stderr = '';
   child.stderr.on('data', (d) => (stderr += d));
   child.on('close', (code) => {

@@ -18,6 +18,30 @@ describe('near-duplicates', () => {
     // brute force (d ≥ 8) agrees on the same input
     expect(nearDuplicatePairs(items, 8).map((p) => [p.a, p.b])).toEqual([['a', 'b'], ['b', 'd']]);
   });
+  it('multi-index candidates find exactly the pairs an all-pairs comparison finds, for every distance 0–12', () => {
+    const r = rng(99);
+    const hex = (bits: bigint) => bits.toString(16).padStart(16, '0');
+    for (let c = 0; c < 40; c++) {
+      // Clusters: a few centres, items a few random bit flips away from one, in a few groups; flat items among them.
+      const centres = Array.from({ length: 1 + (c % 4) }, () => (BigInt(Math.floor(r() * 2 ** 32)) << 32n) | BigInt(Math.floor(r() * 2 ** 32)));
+      const items = Array.from({ length: 30 + (c % 50) }, (_, i) => {
+        let h = centres[Math.floor(r() * centres.length)]!;
+        for (let f = Math.floor(r() * 9); f > 0; f--) h ^= 1n << BigInt(Math.floor(r() * 64));
+        return { id: `p${String(i).padStart(3, '0')}`, group: `g${Math.floor(r() * 5)}`, hash: hex(h), textured: r() > 0.1 };
+      });
+      const d = c % 13;
+      const brute: [string, string, number][] = [];
+      const t = items.filter((x) => x.textured);
+      for (const x of t) for (const y of t) {
+        if (x.id >= y.id || x.group === y.group) continue;
+        let bits = BigInt(`0x${x.hash}`) ^ BigInt(`0x${y.hash}`), n = 0;
+        for (; bits; bits >>= 1n) n += Number(bits & 1n);
+        if (n <= d) brute.push([x.id, y.id, n]);
+      }
+      brute.sort((p, q) => (p[0] < q[0] ? -1 : p[0] > q[0] ? 1 : p[1] < q[1] ? -1 : p[1] > q[1] ? 1 : 0));
+      expect(nearDuplicatePairs(items, d).map((p) => [p.a, p.b, p.distance]), `case ${c}, d ${d}`).toEqual(brute);
+    }
+  });
   it('merges linked groups under their smallest key', () => {
     const m = mergeGroups(['g3', 'g1', 'g2', 'g4'], [['g2', 'g3'], ['g3', 'g1']]);
     expect(Object.fromEntries(m)).toEqual({ g1: 'g1', g2: 'g1', g3: 'g1', g4: 'g4' });
