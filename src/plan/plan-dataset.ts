@@ -136,8 +136,8 @@ function occludersOf(images: readonly PaintedImage[], image: PaintedImage): Rect
  */
 export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPlan {
   const rightsExcluded: DatasetPlan['rightsExcluded'] = [];
-  const canvases = new CanvasLookup<CanvasContext & { entry: ManifestEntry }>(
-    sources.manifests.flatMap((entry) => entry.manifest.canvases.map((canvas) => ({ manifest: entry.manifest, canvas, entry }))),
+  const canvases = new CanvasLookup<CanvasContext & { entry: ManifestEntry; index: number }>(
+    sources.manifests.flatMap((entry) => entry.manifest.canvases.map((canvas, index) => ({ manifest: entry.manifest, canvas, entry, index }))),
   );
   const { regions, skipped: regionSkips, obstacles } = extractRegions(sources.annotations, canvases, labelIndex(recipe.labels));
   const skipped: PlanSkip[] = regionSkips.map((s) => ({ key: s.annotationId, reason: s.reason, detail: s.detail }));
@@ -171,7 +171,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
       return { skip: 'rights-excluded', detail: `rights ${provenance.rights ?? '(none)'} are not in rights.allow` };
     }
     return {
-      ctx: { manifestId: c.manifest.id, canvasId, canvas: { index: c.manifest.canvases.indexOf(c.canvas), label: c.canvas.label, width: c.canvas.width, height: c.canvas.height }, placement, service, scale, provenance, collections: c.entry.collections, ...(image.choice ? { choice: image.choice } : {}) },
+      ctx: { manifestId: c.manifest.id, canvasId, canvas: { index: c.index, label: c.canvas.label, width: c.canvas.width, height: c.canvas.height }, placement, service, scale, provenance, collections: c.entry.collections, ...(image.choice ? { choice: image.choice } : {}) },
       placement,
       image,
       occluders: occludersOf(c.canvas.images, image),
