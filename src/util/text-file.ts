@@ -36,6 +36,7 @@ export async function writeTextParts(path: string, parts: Iterable<string>): Pro
     out.on('error', reject);
     out.on('close', resolve);
   });
+  closed.catch(() => undefined); // awaited below; a write error must not surface as an unhandled rejection first
   try {
     for (const part of parts) {
       batch.push(part);
