@@ -38,7 +38,7 @@ export async function writeDataset(tx: FolderTransaction, staging: string, data:
   await write('card.json', [`${JSON.stringify(card, null, 2)}\n`]);
   await write('card.md', [renderCardMarkdown(card)]);
   await write('lock.json', [lockText]);
-  await write('provenance.jsonld', [...prettyJsonParts(provenanceDocument(recipe.name, tool, records)), '\n']);
+  await write('provenance.jsonld', endedByNewline(prettyJsonParts(provenanceDocument(recipe.name, tool, records))));
   await write('failures.jsonl', linesOf(failures.map((f) => JSON.stringify(f))));
   await write('ATTRIBUTION.md', [attributionMarkdown(recipe.name, records)]);
   await write('canvases.json', [`${JSON.stringify(data.canvases, null, 2)}\n`]);
@@ -82,4 +82,10 @@ function* linesOf(lines: Iterable<string>): Generator<string> {
 /** `splits/<split>.txt`: the split's patch ids, one per line, in index order. */
 function* idLines(records: readonly IndexRecord[], split: string): Generator<string> {
   for (const r of records) if (r.split === split) yield `${r.id}\n`;
+}
+
+/** The parts, then a newline. */
+function* endedByNewline(parts: Iterable<string>): Generator<string> {
+  yield* parts;
+  yield '\n';
 }
