@@ -60,4 +60,6 @@ try {
   // no dataset: the run failed; its stderr is printed
 }
 console.log(JSON.stringify({ canvases: N, plannedPositives: N * (SIDE / 32) ** 2, patchesInIndex: patches, exit: result.code, wallS: result.wallS, peakRssMb: Math.round(result.maxRssKb / 1024), ...(result.code ? { stderr: result.stderr } : {}) }));
-if (!process.env.BENCH_KEEP) await rm(work, { recursive: true, force: true });
+// A failed run leaves its folder (cache with the cut results, the partial dataset) for a look or a warm rerun.
+if (!process.env.BENCH_KEEP && result.code === 0) await rm(work, { recursive: true, force: true });
+else console.log(JSON.stringify({ kept: work }));
