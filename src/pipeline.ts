@@ -15,7 +15,7 @@ import { resolveSources, ResolvedSources } from './sources/resolve.ts';
 import { FolderTransaction } from './dataset/write-folder.ts';
 import { serialiseLock } from './net/lock.ts';
 import { sha256Hex } from './util/hash.ts';
-import { mapLines } from './util/text-file.ts';
+import { forEachLine } from './util/text-file.ts';
 
 export interface BuildSummary {
   patches: number;
@@ -206,7 +206,7 @@ export async function buildFromHarvest(recipe: Recipe, opts: RunOptions, input: 
 async function readPreviousSplits(path: string): Promise<Map<string, SplitName>> {
   const out = new Map<string, SplitName>();
   try {
-    await mapLines(path, (line, n) => {
+    await forEachLine(path, (line, n) => {
       let r: { group?: unknown; split?: unknown };
       try {
         r = JSON.parse(line);
