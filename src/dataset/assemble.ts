@@ -119,13 +119,14 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
     const changed = known.filter((g) => assignment.byGroup.get(g) !== i.previousSplits!.get(g)).length;
     previous = { groups: i.previousSplits.size, kept: known.length - changed, changed, new: groups.length - known.length };
   }
-  const cropByKey = new Map(plan.crops.map((c) => [c.key, c]));
-
+  const sharedOf = cropPartsMemo(plan, i.served);
+  const tagsOf = tagsMemo();
   const records: IndexRecord[] = kept.map((p) => {
-    const crop = cropByKey.get(p.cropKey)!;
-    const ctx = plan.contexts[p.cropKey]!;
+    const shared = sharedOf(p.cropKey);
     const cut = cuts.get(p.id)!;
-    const split = assignment.byGroup.get(groupOf(p))!;
+    const group = groupOf(p);
+    const split = assignment.byGroup.get(group)!;
+    // Key order is the order of IndexRecord (the index is these objects serialised).
     return {
       id: p.id,
       split,
@@ -135,27 +136,27 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
       sha256: cut.sha256,
       phash: cut.phash,
       coverage: p.coverage,
-      group: groupOf(p),
+      group,
       manifest: redactUrl(p.manifestId),
-      collections: ctx.collections.map(redactUrl),
+      collections: shared.collections,
       canvas: redactUrl(p.canvasId),
       annotation: p.annotationId ?? null,
       annotator: p.annotator ?? null,
       sourceLabel: p.rawLabel ?? null,
-      tags: (p.tags ?? []).map((t) => ({ value: t.value, purpose: t.purpose ?? null, language: t.language ?? null, raw: t.raw ?? null })),
-      bodyChoice: ctx.choice ?? null,
-      service: { id: redactUrl(ctx.service.id), version: ctx.service.version, level: ctx.service.level },
-      requests: crop.stitch.pieces.map((x) => redactUrl(x.url)),
-      responses: (i.served.get(p.cropKey) ?? []).map((o) => ({ url: redactUrl(o.url), sha256: o.sha256 })),
+      tags: tagsOf(p.tags),
+      bodyChoice: shared.bodyChoice,
+      service: shared.service,
+      requests: shared.requests,
+      responses: shared.responses,
       canvasRegion: p.canvasRegion,
       imageRegion: p.imageRegion,
-      scale: { pixelsPerCanvasUnit: ctx.scale.pixelsPerCanvasUnit, basis: ctx.scale.basis, mmPerCanvasUnit: ctx.scale.mmPerCanvasUnit ?? null },
+      scale: shared.scale,
       crop: p.cropKey,
-      rights: ctx.provenance.rights ?? null,
-      requiredStatement: ctx.provenance.requiredStatement ?? null,
-      provider: ctx.provenance.provider,
-      logos: (ctx.provenance.logos ?? []).map(redactUrl),
-      partOf: (ctx.provenance.partOf ?? []).map(redactUrl),
+      rights: shared.rights,
+      requiredStatement: shared.requiredStatement,
+      provider: shared.provider,
+      logos: shared.logos,
+      partOf: shared.partOf,
     };
   });
   records.sort((a, b) => byString(a.id, b.id));
@@ -181,6 +182,52 @@ export function assembleDataset(i: AssembleInput): AssembledDataset {
   const perSplit = Object.fromEntries(SPLITS.map((s) => [s, records.filter((r) => r.split === s).length]));
   const skipped = [...plan.skipped].sort((a, b) => byString(a.reason, b.reason) || byString(a.key, b.key) || byString(a.detail, b.detail));
   return { records, failures, card, pairs, perSplit, assignment, ...(churn ? { churn } : {}), canvases: canvasFacts(plan), skipped };
+}
+
+type CropParts = Pick<IndexRecord, 'collections' | 'bodyChoice' | 'service' | 'requests' | 'responses' | 'scale' | 'rights' | 'requiredStatement' | 'provider' | 'logos' | 'partOf'>;
+
+/**
+ * The parts of an index record that every patch of one crop shares (its
+ * service, requests, rights…), made once per crop: a crop yields up to
+ * thousands of patches, and a million records each with their own copies
+ * would not fit in memory. Records share these objects; nothing mutates them.
+ */
+function cropPartsMemo(plan: DatasetPlan, served: AssembleInput['served']): (cropKey: string) => CropParts {
+  const cropByKey = new Map(plan.crops.map((c) => [c.key, c]));
+  const memo = new Map<string, CropParts>();
+  return (cropKey) => {
+    let parts = memo.get(cropKey);
+    if (parts) return parts;
+    const crop = cropByKey.get(cropKey)!;
+    const ctx = plan.contexts[cropKey]!;
+    parts = {
+      collections: ctx.collections.map(redactUrl),
+      bodyChoice: ctx.choice ?? null,
+      service: { id: redactUrl(ctx.service.id), version: ctx.service.version, level: ctx.service.level },
+      requests: crop.stitch.pieces.map((x) => redactUrl(x.url)),
+      responses: (served.get(cropKey) ?? []).map((o) => ({ url: redactUrl(o.url), sha256: o.sha256 })),
+      scale: { pixelsPerCanvasUnit: ctx.scale.pixelsPerCanvasUnit, basis: ctx.scale.basis, mmPerCanvasUnit: ctx.scale.mmPerCanvasUnit ?? null },
+      rights: ctx.provenance.rights ?? null,
+      requiredStatement: ctx.provenance.requiredStatement ?? null,
+      provider: ctx.provenance.provider,
+      logos: (ctx.provenance.logos ?? []).map(redactUrl),
+      partOf: (ctx.provenance.partOf ?? []).map(redactUrl),
+    };
+    memo.set(cropKey, parts);
+    return parts;
+  };
+}
+
+/** A region's tags as records write them, made once per region (its patches share the plan's tag list). */
+function tagsMemo(): (tags: PatchPlan['tags']) => IndexRecord['tags'] {
+  const memo = new Map<readonly unknown[], IndexRecord['tags']>();
+  const none: IndexRecord['tags'] = [];
+  return (tags) => {
+    if (!tags || tags.length === 0) return none;
+    let out = memo.get(tags);
+    if (!out) memo.set(tags, (out = tags.map((t) => ({ value: t.value, purpose: t.purpose ?? null, language: t.language ?? null, raw: t.raw ?? null }))));
+    return out;
+  };
 }
 
 /**

@@ -31,7 +31,10 @@ export interface CardInputs {
 
 /** Near-duplicate pairs whose patches ended in different splits (none, when merging did its work), with both ids. */
 function acrossSplits(pairs: readonly NearDuplicatePair[], records: readonly IndexRecord[]) {
-  const split = new Map(records.map((r) => [r.id, r.split]));
+  if (pairs.length === 0) return [];
+  const inPairs = new Set(pairs.flatMap((p) => [p.a, p.b]));
+  const split = new Map<string, SplitName>();
+  for (const r of records) if (inPairs.has(r.id)) split.set(r.id, r.split);
   return pairs
     .filter((p) => split.get(p.a) !== undefined && split.get(p.a) !== split.get(p.b))
     .map((p) => ({ a: p.a, b: p.b, distance: p.distance, splitA: split.get(p.a)!, splitB: split.get(p.b)! }));

@@ -33,12 +33,23 @@ export function metadataLine(r: IndexRecord): string {
   });
 }
 
-/** The lines of each metadata file (without newlines) by dataset-relative path, for the splits that hold patches. */
-export function splitMetadataLines(records: readonly IndexRecord[]): Map<string, string[]> {
-  const out = new Map<string, string[]>();
+/**
+ * The lines of each metadata file (without newlines) by dataset-relative path,
+ * for the splits that hold patches. Each file's lines are made as they are
+ * read (a split of a million patches is not held as text).
+ */
+export function splitMetadataLines(records: readonly IndexRecord[]): Map<string, Iterable<string>> {
+  const out = new Map<string, Iterable<string>>();
   for (const s of SPLITS) {
-    const lines = records.filter((r) => r.split === s).sort((a, b) => byString(`${a.label}/${a.id}`, `${b.label}/${b.id}`)).map(metadataLine);
-    if (lines.length) out.set(`patches/${s}/metadata.jsonl`, lines);
+    if (!records.some((r) => r.split === s)) continue;
+    out.set(`patches/${s}/metadata.jsonl`, {
+      *[Symbol.iterator]() {
+        // Sorted by the file name, `<label>/<id>.png` ("oak-dark/…" before "oak/…").
+        const inSplit = records.filter((r) => r.split === s).map((r) => ({ key: `${r.label}/${r.id}`, r }));
+        inSplit.sort((a, b) => byString(a.key, b.key));
+        for (const { r } of inSplit) yield metadataLine(r);
+      },
+    });
   }
   return out;
 }

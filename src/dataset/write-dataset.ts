@@ -1,6 +1,5 @@
 import { mkdir, readFile, rename, rm, writeFile } from 'node:fs/promises';
 import { dirname, join } from 'node:path';
-import pLimit from 'p-limit';
 import type { Recipe } from '../recipe/types.ts';
 import { SPLITS } from '../split/assign.ts';
 import type { AssembledDataset, ToolVersions } from './assemble.ts';
@@ -24,9 +23,10 @@ import type { FolderTransaction } from './write-folder.ts';
  */
 export async function writeDataset(tx: FolderTransaction, staging: string, data: AssembledDataset, lockText: string, recipe: Pick<Recipe, 'name' | 'description' | 'network' | 'shards'>, tool: ToolVersions): Promise<void> {
   const { records, failures, card } = data;
-  for (const dir of new Set(records.map((r) => dirname(tx.path(r.file))))) await mkdir(dir, { recursive: true });
-  const moveLimit = pLimit(16);
-  await Promise.all(records.map((r) => moveLimit(() => rename(join(staging, `${r.id}.png`), tx.path(r.file)))));
+  const dirs = new Set<string>();
+  for (const r of records) dirs.add(dirname(r.file));
+  for (const dir of dirs) await mkdir(tx.path(dir), { recursive: true });
+  await movePatches(tx, staging, records);
   await mkdir(tx.path('splits'), { recursive: true });
   // Files that grow with the patches are written line by line (a million patches make
   // gigabytes of text); each file's digest is taken as it is written, for croissant.json.
@@ -47,6 +47,18 @@ export async function writeDataset(tx: FolderTransaction, staging: string, data:
   const croissant = croissantDocument({ card, description: recipe.description, records, files, ...(recipe.network.contact ? { contact: recipe.network.contact } : {}) });
   await write('croissant.json', [`${JSON.stringify(croissant, null, 2)}\n`]);
   await rm(staging, { recursive: true, force: true });
+}
+
+/** Moves each cut patch into its class folder, 16 renames at a time (a promise per patch would not fit a million). */
+async function movePatches(tx: FolderTransaction, staging: string, records: readonly IndexRecord[]): Promise<void> {
+  let next = 0;
+  const mover = async () => {
+    while (next < records.length) {
+      const r = records[next++]!;
+      await rename(join(staging, `${r.id}.png`), tx.path(r.file));
+    }
+  };
+  await Promise.all(Array.from({ length: 16 }, mover));
 }
 
 /**

@@ -4,6 +4,10 @@
  * graph nodes is written without one string of its whole text (which a
  * JavaScript string cannot hold). Joined, the parts are the very same text:
  * JSON strings hold no raw newline, so indenting a nested value is prefixing its lines.
+ *
+ * A top-level value may also be a lazy sequence (an iterable that is not an
+ * array or a string, such as a generator): it is written as the array of its
+ * items, taken one at a time, so the items need never all exist at once.
  */
 export function* prettyJsonParts(value: Record<string, unknown>): Generator<string> {
   const entries = Object.entries(value).filter(([, v]) => v !== undefined && typeof v !== 'function' && typeof v !== 'symbol');
@@ -15,10 +19,8 @@ export function* prettyJsonParts(value: Record<string, unknown>): Generator<stri
   for (let e = 0; e < entries.length; e++) {
     const [key, v] = entries[e]!;
     yield `  ${JSON.stringify(key)}: `;
-    if (Array.isArray(v) && v.length) {
-      yield '[\n';
-      for (let i = 0; i < v.length; i++) yield `    ${indented(JSON.stringify(v[i], null, 2) ?? 'null', 4)}${i < v.length - 1 ? ',' : ''}\n`;
-      yield '  ]';
+    if (Array.isArray(v) || isLazySequence(v)) {
+      yield* arrayParts(v);
     } else {
       yield indented(JSON.stringify(v, null, 2), 2);
     }
@@ -29,4 +31,25 @@ export function* prettyJsonParts(value: Record<string, unknown>): Generator<stri
 
 function indented(text: string, by: number): string {
   return text.replace(/\n/g, `\n${' '.repeat(by)}`);
+}
+
+function isLazySequence(v: unknown): v is Iterable<unknown> {
+  return typeof v === 'object' && v !== null && !Array.isArray(v) && typeof (v as Iterable<unknown>)[Symbol.iterator] === 'function';
+}
+
+/** A top-level array's text, an item at a time (one item of look-ahead decides its comma). */
+function* arrayParts(items: Iterable<unknown>): Generator<string> {
+  const it = items[Symbol.iterator]();
+  let next = it.next();
+  if (next.done) {
+    yield '[]';
+    return;
+  }
+  yield '[\n';
+  while (!next.done) {
+    const item = next.value;
+    next = it.next();
+    yield `    ${indented(JSON.stringify(item, null, 2) ?? 'null', 4)}${next.done ? '' : ','}\n`;
+  }
+  yield '  ]';
 }

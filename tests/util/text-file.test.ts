@@ -20,6 +20,12 @@ describe('text written and read in parts', () => {
     for (let c = 0; c < 300; c++) {
       const doc = Object.fromEntries(Array.from({ length: c % 5 }, (_, i) => [i === 1 ? '@graph' : `key ${i}`, i === 1 ? Array.from({ length: c % 7 }, () => value(3)) : value(3)]));
       expect([...prettyJsonParts(doc)].join(''), `case ${c}`).toBe(JSON.stringify(doc, null, 2));
+      // The same document with its graph given as a generator: written as that array, item by item.
+      const graph = doc['@graph'];
+      if (Array.isArray(graph)) {
+        const lazy = { ...doc, '@graph': (function* () { yield* graph; })() };
+        expect([...prettyJsonParts(lazy)].join(''), `lazy case ${c}`).toBe(JSON.stringify(doc, null, 2));
+      }
     }
   });
 
