@@ -129,22 +129,68 @@ function occludersOf(images: readonly PaintedImage[], image: PaintedImage): Rect
   return images.filter((o) => o.order > image.order && intersects(o.target, image.target)).map((o) => o.target);
 }
 
+/** Where planning puts what it plans, as it plans it (a crop once, with its context, the first time its key comes up). */
+export interface PlanSink {
+  crop(crop: CropRequest, ctx: CropContext): void;
+  patch(patch: PatchPlan): void;
+  region(region: Region): void;
+  skip(skip: PlanSkip): void;
+}
+
+/** What planning counts besides the items it gives to its sink. */
+export type PlanTotals = Pick<DatasetPlan, 'negatives' | 'rightsExcluded'>;
+
 /**
  * Plans the whole dataset: regions from annotations, one crop per region, the
  * positive patches each crop yields (by mask coverage), and seeded negatives on
  * the same canvases. Pure: the same inputs give the same plan, in sorted order.
  */
 export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPlan {
+  const crops: CropRequest[] = [];
+  const contexts: [string, CropContext][] = [];
+  const patches: PatchPlan[] = [];
+  const regions: Region[] = [];
+  const skipped: PlanSkip[] = [];
+  const totals = planInto(recipe, sources, {
+    crop: (crop, ctx) => {
+      crops.push(crop);
+      contexts.push([crop.key, ctx]);
+    },
+    patch: (p) => patches.push(p),
+    region: (r) => regions.push(r),
+    skip: (x) => skipped.push(x),
+  });
+  return {
+    crops: crops.sort((a, b) => byString(a.key, b.key)),
+    patches: patches.sort((a, b) => byString(a.id, b.id)),
+    contexts: Object.fromEntries(contexts.sort((a, b) => byString(a[0], b[0]))),
+    regions,
+    skipped: skipped.sort(bySkipOrder),
+    ...totals,
+  };
+}
+
+/** The order of a plan's skips: by key, then reason (a stable sort: ties keep the order they were planned in). */
+export function bySkipOrder(a: PlanSkip, b: PlanSkip): number {
+  return byString(a.key, b.key) || byString(a.reason, b.reason);
+}
+
+/**
+ * Plans into a sink, in planning order (pure but for the sink): regions in key
+ * order, skips and patches as they are found, each crop once. Nothing planned is
+ * kept here but crop keys and counts per canvas, so a sink that writes items
+ * away holds planning's memory to its sources.
+ */
+export function planInto(recipe: Recipe, sources: ResolvedSources, sink: PlanSink): PlanTotals {
   const rightsExcluded: DatasetPlan['rightsExcluded'] = [];
   const canvases = new CanvasLookup<CanvasContext & { entry: ManifestEntry; index: number }>(
     sources.manifests.flatMap((entry) => entry.manifest.canvases.map((canvas, index) => ({ manifest: entry.manifest, canvas, entry, index }))),
   );
   const { regions, skipped: regionSkips, obstacles } = extractRegions(sources.annotations, canvases, labelIndex(recipe.labels));
-  const skipped: PlanSkip[] = regionSkips.map((s) => ({ key: s.annotationId, reason: s.reason, detail: s.detail }));
+  for (const r of regions) sink.region(r);
+  for (const x of regionSkips) sink.skip({ key: x.annotationId, reason: x.reason, detail: x.detail });
   const s = recipe.patch;
-  const crops = new Map<string, CropRequest>();
-  const contexts = new Map<string, CropContext>();
-  const patches: PatchPlan[] = [];
+  const cropKeys = new Set<string>();
   const positivesPerCanvas = new Map<string, number>();
   const excludedManifests = new Set<string>();
 
@@ -179,16 +225,16 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
   };
 
   const addCrop = (crop: CropRequest, ctx: CropContext) => {
-    if (!crops.has(crop.key)) {
-      crops.set(crop.key, crop);
-      contexts.set(crop.key, ctx);
+    if (!cropKeys.has(crop.key)) {
+      cropKeys.add(crop.key);
+      sink.crop(crop, ctx);
     }
   };
 
   for (const region of regions) {
     const prep = prepare(canvasKey(region.manifestId, region.canvasId), region.bounds);
     if ('skip' in prep) {
-      skipped.push({ key: region.key, reason: prep.skip, detail: prep.detail });
+      sink.skip({ key: region.key, reason: prep.skip, detail: prep.detail });
       continue;
     }
     const { ctx, placement } = prep;
@@ -198,16 +244,16 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
       crop = planCrop({ service: ctx.service, placement, scale: px, canvasRect: region.bounds, format: recipe.request.format, quality: recipe.request.quality });
     } catch (err) {
       if (!(err instanceof PlanError)) throw err;
-      skipped.push({ key: region.key, reason: 'unplannable', detail: err.message });
+      sink.skip({ key: region.key, reason: 'unplannable', detail: err.message });
       continue;
     }
     const { patches: found, fits, hidden } = positivePatches({ box: crop.outputBox, px, size: s.size, stride: s.stride, minCoverage: s.minCoverage, shape: region.shape, occluders: prep.occluders });
     if (!fits) {
-      skipped.push({ key: region.key, reason: 'too-small-for-a-patch', detail: `the region is ${crop.outputBox.w}×${crop.outputBox.h} px at this scale, smaller than one ${s.size}-px patch on the grid` });
+      sink.skip({ key: region.key, reason: 'too-small-for-a-patch', detail: `the region is ${crop.outputBox.w}×${crop.outputBox.h} px at this scale, smaller than one ${s.size}-px patch on the grid` });
       continue;
     }
     for (const f of found) {
-      patches.push({
+      sink.patch({
         id: stableId(['positive', region.key, px, f.u, f.v, s.size]),
         label: region.label,
         kind: 'positive',
@@ -228,11 +274,11 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
     }
     const kept = found.length;
     if (kept === 0 && hidden > 0) {
-      skipped.push({ key: region.key, reason: 'covered-by-another-image', detail: `every patch that meets the coverage lies partly under an image painted later on the canvas (${hidden} patch(es))` });
+      sink.skip({ key: region.key, reason: 'covered-by-another-image', detail: `every patch that meets the coverage lies partly under an image painted later on the canvas (${hidden} patch(es))` });
       continue;
     }
     if (kept === 0) {
-      skipped.push({ key: region.key, reason: 'no-patch-meets-coverage', detail: `no ${s.size}-px patch is at least ${s.minCoverage * 100}% inside the region` });
+      sink.skip({ key: region.key, reason: 'no-patch-meets-coverage', detail: `no ${s.size}-px patch is at least ${s.minCoverage * 100}% inside the region` });
       continue;
     }
     addCrop(crop, ctx);
@@ -240,18 +286,8 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
     positivesPerCanvas.set(ck, (positivesPerCanvas.get(ck) ?? 0) + kept);
   }
 
-  const negatives = addNegatives(recipe, regions, positivesPerCanvas, canvases, obstacles, prepare, addCrop, patches);
-  patches.sort((a, b) => byString(a.id, b.id));
-  skipped.sort((a, b) => byString(a.key, b.key) || byString(a.reason, b.reason));
-  return {
-    crops: [...crops.values()].sort((a, b) => byString(a.key, b.key)),
-    patches,
-    contexts: Object.fromEntries([...contexts.entries()].sort((a, b) => byString(a[0], b[0]))),
-    regions,
-    skipped,
-    negatives,
-    rightsExcluded: rightsExcluded.sort((a, b) => byString(a.manifestId, b.manifestId)),
-  };
+  const negatives = addNegatives(recipe, regions, positivesPerCanvas, canvases, obstacles, prepare, addCrop, sink);
+  return { negatives, rightsExcluded: rightsExcluded.sort((a, b) => byString(a.manifestId, b.manifestId)) };
 }
 
 type Ready = { ctx: CropContext; placement: Placement; image: PaintedImage; occluders: Rect[] };
@@ -269,7 +305,7 @@ function addNegatives(
   obstacles: ReadonlyMap<string, Rect[]>,
   prepare: (canvasKey: string, bounds: Rect) => Prepared,
   addCrop: (crop: CropRequest, ctx: CropContext) => void,
-  patches: PatchPlan[],
+  sink: PlanSink,
 ): DatasetPlan['negatives'] {
   const size = recipe.patch.size;
   const groupOfCanvas = (key: string) => {
@@ -310,7 +346,7 @@ function addNegatives(
         annotationId = best.annotationId;
       }
     }
-    patches.push({
+    sink.patch({
       // Canvas ids alone are kept in the id so datasets stay stable; a canvas id shared by manifests adds the manifest.
       id: stableId(['negative', canvases.isShared(c.canvas.id) ? pick.key : c.canvas.id, px, pick.u, pick.v, size]),
       label: recipe.negatives.label,
