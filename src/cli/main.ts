@@ -149,10 +149,10 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
         const { planShards, PLAN_FILE } = await import('../shard/shard-run.ts');
         const folder = await planShards(recipe, n, dir, runOptions(o, rep));
         print(o, [
-          `plan: ${join(dir, PLAN_FILE)} (${folder.plan.crops.length} crops, ${folder.plan.patches.length} patches planned)`,
-          ...folder.shards.map((x) => `  shard ${x.index}: ${x.crops.length} crops, about ${x.estimatedRequests} requests, hosts ${x.hosts.join(', ') || '(none)'}`),
+          `plan: ${join(dir, PLAN_FILE)} (${folder.crops} crops, ${folder.patches} patches planned)`,
+          ...folder.shards.map((x) => `  shard ${x.index}: ${x.crops} crops, about ${x.estimatedRequests} requests, hosts ${x.hosts.join(', ') || '(none)'}`),
           `next: swatchbook harvest --plan ${dir} --shard K (K = 0…${n - 1}), then swatchbook merge --plan ${dir}`,
-        ].join('\n'), { plan: join(dir, PLAN_FILE), shards: folder.shards.map((x) => ({ ...x, crops: x.crops.length })), failures: folder.sources.failures });
+        ].join('\n'), { plan: join(dir, PLAN_FILE), shards: folder.shards, failures: folder.sources.failures });
         if (folder.sources.failures.length) exitCode = 1;
         return;
       }
@@ -311,7 +311,7 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
         jobs = { harvest: harvestJob, merge: mergeJob };
       }
       print(o, [
-        `plan: ${join(dir, PLAN_FILE)}, ${n} shard(s) by host: ${folder.shards.map((x) => `${x.index}: ${x.hosts.join(', ') || '(none)'} (${x.crops.length} crops)`).join('; ')}`,
+        `plan: ${join(dir, PLAN_FILE)}, ${n} shard(s) by host: ${folder.shards.map((x) => `${x.index}: ${x.hosts.join(', ') || '(none)'} (${x.crops} crops)`).join('; ')}`,
         `job array: ${harvestFile}`,
         `merge job: ${mergeFile}`,
         jobs ? `submitted: harvest array ${jobs.harvest}, merge ${jobs.merge} (after the array succeeds)` : `submit: sbatch ${harvestFile}, then sbatch --dependency=afterok:<array id> ${mergeFile}`,

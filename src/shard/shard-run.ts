@@ -13,14 +13,17 @@ import { processTag, writeFileAtomic } from '../net/atomic-write.ts';
 import { mapLines, writeTextParts } from '../util/text-file.ts';
 import { ContentCache, ResponseFacts } from '../net/cache.ts';
 import type { DatasetPlan } from '../plan/plan-dataset.ts';
-import { buildFromHarvest, BuildSummary, defaultCacheDir, harvestThumbnails, openFetcher, planRecipe, RunOptions } from '../pipeline.ts';
+import { buildFromHarvest, BuildSummary, defaultCacheDir, harvestThumbnails, openFetcher, RunOptions } from '../pipeline.ts';
+import { planInto } from '../plan/plan-dataset.ts';
+import { resolveSources } from '../sources/resolve.ts';
+import { ExternalSort } from '../util/external-sort.ts';
 import { loadRecipe } from '../recipe/load.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ResolvedSources } from '../sources/resolve.ts';
 import { byString } from '../util/hash.ts';
-import { hostOf, partitionByHost, ShardPlan } from './partition.ts';
+import { cropHost, HostLoads, ShardPlan } from './partition.ts';
 
-export const PLAN_DIR_VERSION = 2;
+export const PLAN_DIR_VERSION = 3;
 
 /** The parts of a plan that grow with the dataset: written one element per line. */
 const PLAN_LISTS = ['crops', 'patches', 'regions', 'skipped'] as const;
@@ -52,24 +55,69 @@ export interface ShardResult {
 export const shardDir = (dir: string, k: number) => join(dir, `shard-${k}`);
 export const shardCacheDir = (dir: string, k: number) => join(shardDir(dir, k), 'cache');
 
-/** Plans once (documents and info.json into the recipe's cache) and writes the plan folder with its partition. */
-export async function planShards(recipe: Recipe, n: number, dir: string, opts: RunOptions = {}): Promise<PlanFolder> {
-  const { plan, sources, fetcher } = await planRecipe(recipe, opts);
-  const folder: PlanFolder = {
+/** What `planShards` wrote, for the command's summary. */
+export interface PlannedShards {
+  shards: ShardPlan[];
+  crops: number;
+  patches: number;
+  sources: PlanFolder['sources'];
+}
+
+/**
+ * Plans once (documents and info.json into the recipe's cache) and writes the
+ * plan folder with its partition. What planning yields goes straight to a
+ * sorting writer (sorted runs on disk, merged into `plan.jsonl`), so the plan of a
+ * million patches is never held: memory is the sources' and a bounded buffer.
+ */
+export async function planShards(recipe: Recipe, n: number, dir: string, opts: RunOptions & { sortRunChars?: number } = {}): Promise<PlannedShards> {
+  const fetcher = await openFetcher(recipe, opts);
+  const sources = await resolveSources(recipe.sources, fetcher, { strict: !!opts.strict });
+  await mkdir(dir, { recursive: true });
+  const sorter = new ExternalSort(join(dir, `.tmp-${processTag}-sort`), opts.sortRunChars);
+  const loads = new HostLoads();
+  let crops = 0;
+  let patches = 0;
+  let regions = 0;
+  // Lines sort by list (the order planFolderLines writes them in), then as DatasetPlan sorts each list.
+  const totals = planInto(recipe, sources, {
+    crop: (crop, ctx) => {
+      crops++;
+      loads.add(crop);
+      sorter.add(['0', crop.key], JSON.stringify({ crops: crop }));
+      sorter.add(['4', crop.key], JSON.stringify({ context: crop.key, value: ctx }));
+    },
+    patch: (p) => {
+      patches++;
+      sorter.add(['1', p.id], JSON.stringify({ patches: p }));
+    },
+    // Regions come in their order already: the order they were added in keeps it.
+    region: (r) => {
+      regions++;
+      sorter.add(['2'], JSON.stringify({ regions: r }));
+    },
+    skip: (x) => sorter.add(['3', x.key, x.reason], JSON.stringify({ skipped: x })),
+  });
+  const folderSources = { failures: sources.failures, notes: sources.notes ?? [], documents: sources.documents };
+  const shards = loads.partition(n);
+  const head: PlanFolder = {
     version: PLAN_DIR_VERSION,
     recipeFile: resolve(recipe.file),
-    shards: partitionByHost(plan.crops, n),
-    plan,
-    sources: { failures: sources.failures, notes: sources.notes ?? [], documents: sources.documents },
+    shards,
+    plan: { crops: [], patches: [], contexts: {}, regions: [], skipped: [], ...totals },
+    sources: folderSources,
     lockFacts: [...fetcher.used.values()].sort((a, b) => byString(a.url, b.url)),
     trustedHosts: [...new Set(fetcher.options.trustedHosts ?? [])].sort(byString),
   };
-  await mkdir(dir, { recursive: true });
   const tmp = join(dir, `.tmp-${processTag}-plan.jsonl`);
-  await writeTextParts(tmp, planFolderLines(folder));
+  await writeTextParts(tmp, linesOf(JSON.stringify(head), sorter.sorted()));
   await rename(tmp, join(dir, PLAN_FILE));
-  await writeFileAtomic(join(dir, 'shards.json'), `${JSON.stringify(folder.shards.map((s) => ({ ...s, crops: s.crops.length })), null, 2)}\n`);
-  return folder;
+  await writeFileAtomic(join(dir, 'shards.json'), `${JSON.stringify(shards, null, 2)}\n`);
+  return { shards, crops, patches, sources: folderSources };
+}
+
+function* linesOf(first: string, rest: Iterable<string>): Generator<string> {
+  yield `${first}\n`;
+  for (const line of rest) yield `${line}\n`;
 }
 
 export const PLAN_FILE = 'plan.jsonl';
@@ -78,7 +126,7 @@ export const PLAN_FILE = 'plan.jsonl';
  * The plan folder as JSON Lines: a first line with everything but the plan's lists and
  * contexts, then one line per crop, patch, region, skip and crop context. A plan of a
  * million patches is over a gigabyte of JSON, more than one string can hold, so it is
- * never one JSON text.
+ * never one JSON text. (`planShards` writes the same lines through a sorting writer.)
  */
 export function* planFolderLines(folder: PlanFolder): Generator<string> {
   const { plan } = folder;
@@ -126,8 +174,9 @@ export async function harvestShard(dir: string, k: number, opts: RunOptions = {}
   const recipe = await loadRecipe(folder.recipeFile);
   const fetcher = await openFetcher(recipe, { ...opts, cacheDir: opts.cacheDir ?? shardCacheDir(dir, k) });
   for (const h of folder.trustedHosts ?? []) fetcher.trustHost(h);
-  const keys = new Set(shard.crops);
-  const crops = folder.plan.crops.filter((c) => keys.has(c.key));
+  const hosts = new Set(shard.hosts);
+  const crops = folder.plan.crops.filter((c) => hosts.has(cropHost(c)));
+  const keys = new Set(crops.map((c) => c.key));
   const harvest = await harvestCrops(crops, fetcher, { onProgress: (d, t) => opts.onProgress?.('fetch', d, t) });
   // The shard cuts its crops too (the CPU-heavy part): the cut results go into its cache, keyed by their
   // inputs, and the merge copies them, so it only assembles and writes.
@@ -137,8 +186,7 @@ export async function harvestShard(dir: string, k: number, opts: RunOptions = {}
   await mkdir(staging, { recursive: true });
   await cutPatches({ crops, patches: folder.plan.patches.filter((p) => keys.has(p.cropKey)) }, harvest.served, fetcher.options.cache, staging, { onProgress: (d, t) => opts.onProgress?.('cut', d, t) });
   await rm(staging, { recursive: true, force: true });
-  const hosts = new Set(shard.hosts);
-  await harvestThumbnails(folder.plan, fetcher, (crop) => hosts.has(hostOf(crop.stitch.pieces[0]?.url ?? '')));
+  await harvestThumbnails(folder.plan, fetcher, (crop) => hosts.has(cropHost(crop)));
   const result: ShardResult = {
     version: PLAN_DIR_VERSION,
     shard: k,

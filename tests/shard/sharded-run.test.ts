@@ -4,8 +4,8 @@ import { spawn } from 'node:child_process';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { main } from '../../src/cli/main.ts';
-import { hashTree } from '../../src/pipeline.ts';
-import { harvestShard } from '../../src/shard/shard-run.ts';
+import { hashTree, planRecipe } from '../../src/pipeline.ts';
+import { harvestShard, planFolderLines, planShards, readPlanFolder } from '../../src/shard/shard-run.ts';
 import { twoArchives } from './two-archives.ts';
 
 let dir: string;
@@ -41,6 +41,15 @@ describe('sharded harvest and merge', () => {
       const planned = JSON.parse(p.out());
       expect(planned.shards.map((s: { hosts: string[] }) => s.hosts).flat().sort()).toEqual(hosts);
       expect(planned.shards.every((s: { hosts: string[]; crops: number }) => s.hosts.length === 1 && s.crops > 0)).toBe(true);
+      // The plan went to disk through a sorting writer: it is the plan planned in memory, line for line,
+      // also when the writer's runs are tiny (dozens of sorted runs merged).
+      const inMemory = (await planRecipe(recipe, { mode: 'offline' })).plan;
+      const written = await readFile(join(plan, 'plan.jsonl'), 'utf8');
+      const folder = await readPlanFolder(plan);
+      expect(folder.plan).toEqual(JSON.parse(JSON.stringify(inMemory)));
+      expect(written).toBe([...planFolderLines({ ...folder, plan: inMemory })].join(''));
+      await planShards(recipe, 2, join(dir, 'plan-small-runs'), { mode: 'offline', sortRunChars: 4096 });
+      expect(await readFile(join(dir, 'plan-small-runs', 'plan.jsonl'), 'utf8')).toBe(written);
       // shard 0 in its own process, killed with SIGKILL part-way; then run again: it resumes from its cache
       const cache0 = join(plan, 'shard-0', 'cache');
       const child = spawn(process.execPath, [BIN, 'harvest', '--plan', plan, '--shard', '0', '--quiet'], { stdio: 'ignore' });
