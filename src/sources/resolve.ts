@@ -57,224 +57,332 @@ class StrictError extends SwatchbookError {
   }
 }
 
+/** A manifest as walking the sources found it, before its annotations and services are read. */
+export interface WalkedManifest {
+  entry: ManifestEntry;
+  /** Where it was read from (a file the recipe names, or a URL). */
+  location: string;
+  local: boolean;
+}
+
 /**
- * Resolves a recipe's sources: manifests, collections (recursively; a collection
- * that includes itself is followed once and noted), annotation documents
- * (following pages), sheets, the annotation pages and lists manifests reference,
- * and the info.json of every image service painted on their canvases.
+ * Reads a recipe's sources in steps that a caller can take all at once
+ * (`resolveSources`) or a manifest at a time (the streaming planner, which reads
+ * each manifest again when it plans it rather than hold them all):
+ *
+ * - `walk`: manifests, collections (recursively; a collection that includes
+ *   itself is followed once and noted), annotation documents (following pages)
+ *   and sheets, in the recipe's order;
+ * - `boundAnnotations`: the annotation pages and lists a manifest references;
+ * - `services`: the info.json of every image service painted on canvases.
  *
  * What the user wrote (files the recipe names, sheets) is strict: a problem
  * throws InputError (exit 2). What comes from a server is lenient: a malformed
  * item is a failure record with URL and JSON Pointer and the rest is used; an
- * unusable document is a failure record for that source. `strict` makes those fatal.
+ * unusable document is a failure record for that source. `strict` makes those
+ * fatal. With `recording` off (a second reading of what was read before) nothing
+ * is recorded twice and a document that failed before is not asked for again.
  */
-export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fetcher, opts: ResolveOptions = {}): Promise<ResolvedSources> {
-  const manifests = new Map<string, ManifestEntry>();
-  const annotations: RegionAnnotation[] = [];
-  const documents: SourceDocument[] = [];
-  const failures: FailureRecord[] = [];
-  const notes: SourceNote[] = [];
+export class SourceReader {
+  readonly documents: SourceDocument[] = [];
+  readonly failures: FailureRecord[] = [];
+  readonly notes: SourceNote[] = [];
+  /** Annotations from annotation documents and sheets: bound to no manifest. */
+  readonly unbound: RegionAnnotation[] = [];
+  /** Annotation pages the walk read (a manifest's page read there is not read again for the manifest). */
+  readonly walkedPages = new Set<string>();
+  /** Records documents and failures (off for a second reading). */
+  recording = true;
+  private readonly failedLocations = new Set<string>();
+  private readonly failedServices = new Set<string>();
 
-  const record = (stage: FailureRecord['stage'], key: string, err: unknown) => {
+  constructor(
+    private readonly fetcher: Fetcher,
+    private readonly opts: ResolveOptions = {},
+  ) {}
+
+  private record(stage: FailureRecord['stage'], key: string, err: unknown): void {
     const f = failureFrom(stage, key, err);
-    if (opts.strict) throw err instanceof InputError ? err : new StrictError(`${f.url ?? key}: ${f.reason}`);
-    failures.push(f);
-  };
+    if (this.opts.strict) throw err instanceof InputError ? err : new StrictError(`${f.url ?? key}: ${f.reason}`);
+    this.failedLocations.add(key);
+    if (this.recording) this.failures.push(f);
+  }
+
   /** Errors from a document the user wrote are fatal; from a server they are records. */
-  const guard = async (local: boolean, stage: FailureRecord['stage'], key: string, work: () => Promise<void>) => {
+  private async guard(local: boolean, stage: FailureRecord['stage'], key: string, work: () => Promise<void>): Promise<void> {
     try {
       await work();
     } catch (err) {
       if (local && !(err instanceof FetchError)) throw err;
-      record(stage, key, err);
+      this.record(stage, key, err);
     }
-  };
+  }
+
   /** Uses a lenient reading: problems of a local document throw, remote ones are item records. */
-  const accept = <T>(read: Read<T>, local: boolean, key: string): T => {
-    if (read.problems.length && (local || opts.strict)) throw read.problems[0];
-    for (const p of read.problems) failures.push(failureFrom('item', key, p));
+  private accept<T>(read: Read<T>, local: boolean, key: string): T {
+    if (read.problems.length && (local || this.opts.strict)) throw read.problems[0];
+    if (this.recording) for (const p of read.problems) this.failures.push(failureFrom('item', key, p));
     return read.value;
-  };
+  }
+
+  private document(d: SourceDocument): void {
+    if (this.recording) this.documents.push(d);
+  }
+
   /** Hosts named by what the user wrote may be loopback or private (a local image server); see the fetcher's guard. */
-  const trust = (location: string | undefined) => {
-    if (location && isUrl(location)) fetcher.trustHost(new URL(location).hostname);
-  };
-  const noteOrThrow = (note: SourceNote, text: string) => {
-    if (opts.strict) throw new StrictError(text);
-    notes.push(note);
-  };
+  private trust(location: string | undefined): void {
+    if (location && isUrl(location)) this.fetcher.trustHost(new URL(location).hostname);
+  }
 
-  const addManifest = async (location: string, collections: string[], mm: number | undefined, local: boolean, inherited?: DocumentFamily) =>
-    guard(local, 'source', location, async () => {
-      const loaded = await loadJson(location, fetcher, 'E_MANIFEST_INVALID', local);
-      documents.push({ location, kind: 'manifest', sha256: loaded.sha256 });
-      const readers = readersFor(loaded.doc, inherited);
-      const manifest = accept(readers.manifest(loaded.doc, location), local, location);
-      if (local) {
-        for (const c of manifest.canvases) {
-          for (const img of c.images) for (const ref of img.services) trust(ref.id);
-          for (const page of c.annotationPages) trust(page.id);
-        }
-        for (const page of manifest.annotationPages) trust(page.id);
-      }
-      if (!manifests.has(manifest.id)) manifests.set(manifest.id, { manifest, collections, family: readers.family, ...(mm !== undefined ? { mmPerCanvasUnit: mm } : {}) });
-    });
+  private noteOrThrow(note: SourceNote, text: string): void {
+    if (this.opts.strict) throw new StrictError(text);
+    this.notes.push(note);
+  }
 
-  const walkCollection = async (collection: Collection, family: DocumentFamily, chain: string[], mm: number | undefined, local: boolean) => {
-    if (chain.length > MAX_DEPTH) throw new InputError('E_COLLECTION_INVALID', collection.source, '', `collections nest deeper than ${MAX_DEPTH}`);
-    const here = [...chain, collection.id];
-    for (const member of collection.members) {
-      if (here.includes(member.id)) {
-        const loop = here.slice(here.indexOf(member.id));
-        noteOrThrow(
-          { kind: 'collection-cycle', collection: collection.id, member: member.id, chain: loop },
-          `${collection.source} at ${member.pointer}: collection ${JSON.stringify(member.id)} includes itself (through ${loop.join(' → ')})`,
-        );
-        continue;
-      }
-      if (member.kind === 'manifest') {
-        await addManifest(member.id, here, mm, false, family);
-      } else if (member.embedded !== undefined) {
-        await guard(local, 'source', member.id, async () => {
-          const readers = READERS[family];
-          await walkCollection(accept(readers.collection(member.embedded, collection.source), local, collection.source), family, here, mm, local);
-        });
-      } else {
-        await guard(false, 'source', member.id, async () => {
-          const loaded = await loadJson(member.id, fetcher, 'E_COLLECTION_INVALID');
-          documents.push({ location: member.id, kind: 'collection', sha256: loaded.sha256 });
-          const readers = readersFor(loaded.doc, family);
-          const child = accept(readers.collection(loaded.doc, member.id), false, member.id);
-          if (child.id !== member.id && here.includes(child.id)) {
-            noteOrThrow({ kind: 'collection-cycle', collection: collection.id, member: child.id, chain: here.slice(here.indexOf(child.id)) }, `${member.id} at /: collection ${JSON.stringify(child.id)} includes itself`);
-            return;
+  /**
+   * Walks the sources in the recipe's order. Each manifest is given to
+   * `onManifest` the first time its id comes up (a later copy of the id is not).
+   */
+  async walk(sources: readonly SourceSpec[], onManifest: (m: WalkedManifest) => void): Promise<void> {
+    const manifestIds = new Set<string>();
+    const addManifest = async (location: string, collections: string[], mm: number | undefined, local: boolean, inherited?: DocumentFamily) =>
+      this.guard(local, 'source', location, async () => {
+        const loaded = await loadJson(location, this.fetcher, 'E_MANIFEST_INVALID', local);
+        this.document({ location, kind: 'manifest', sha256: loaded.sha256 });
+        const readers = readersFor(loaded.doc, inherited);
+        const manifest = this.accept(readers.manifest(loaded.doc, location), local, location);
+        if (local) {
+          for (const c of manifest.canvases) {
+            for (const img of c.images) for (const ref of img.services) this.trust(ref.id);
+            for (const page of c.annotationPages) this.trust(page.id);
           }
-          await walkCollection(child, readers.family, here, mm, false);
-        });
+          for (const page of manifest.annotationPages) this.trust(page.id);
+        }
+        if (!manifestIds.has(manifest.id)) {
+          manifestIds.add(manifest.id);
+          onManifest({ entry: { manifest, collections, family: readers.family, ...(mm !== undefined ? { mmPerCanvasUnit: mm } : {}) }, location, local });
+        }
+      });
+
+    const walkCollection = async (collection: Collection, family: DocumentFamily, chain: string[], mm: number | undefined, local: boolean) => {
+      if (chain.length > MAX_DEPTH) throw new InputError('E_COLLECTION_INVALID', collection.source, '', `collections nest deeper than ${MAX_DEPTH}`);
+      const here = [...chain, collection.id];
+      for (const member of collection.members) {
+        if (here.includes(member.id)) {
+          const loop = here.slice(here.indexOf(member.id));
+          this.noteOrThrow(
+            { kind: 'collection-cycle', collection: collection.id, member: member.id, chain: loop },
+            `${collection.source} at ${member.pointer}: collection ${JSON.stringify(member.id)} includes itself (through ${loop.join(' → ')})`,
+          );
+          continue;
+        }
+        if (member.kind === 'manifest') {
+          await addManifest(member.id, here, mm, false, family);
+        } else if (member.embedded !== undefined) {
+          await this.guard(local, 'source', member.id, async () => {
+            const readers = READERS[family];
+            await walkCollection(this.accept(readers.collection(member.embedded, collection.source), local, collection.source), family, here, mm, local);
+          });
+        } else {
+          await this.guard(false, 'source', member.id, async () => {
+            const loaded = await loadJson(member.id, this.fetcher, 'E_COLLECTION_INVALID');
+            this.document({ location: member.id, kind: 'collection', sha256: loaded.sha256 });
+            const readers = readersFor(loaded.doc, family);
+            const child = this.accept(readers.collection(loaded.doc, member.id), false, member.id);
+            if (child.id !== member.id && here.includes(child.id)) {
+              this.noteOrThrow({ kind: 'collection-cycle', collection: collection.id, member: child.id, chain: here.slice(here.indexOf(child.id)) }, `${member.id} at /: collection ${JSON.stringify(child.id)} includes itself`);
+              return;
+            }
+            await walkCollection(child, readers.family, here, mm, false);
+          });
+        }
+      }
+    };
+
+    for (const source of sources) this.trust(source.location);
+    for (const source of sources) {
+      const local = !isUrl(source.location);
+      switch (source.kind) {
+        case 'manifest':
+          await addManifest(source.location, [], source.mmPerCanvasUnit, local);
+          break;
+        case 'collection':
+          await this.guard(local, 'source', source.location, async () => {
+            const loaded = await loadJson(source.location, this.fetcher, 'E_COLLECTION_INVALID', local);
+            this.document({ location: source.location, kind: 'collection', sha256: loaded.sha256 });
+            const readers = readersFor(loaded.doc);
+            await walkCollection(this.accept(readers.collection(loaded.doc, source.location), local, source.location), readers.family, [], source.mmPerCanvasUnit, local);
+          });
+          break;
+        case 'annotations':
+          this.unbound.push(...(await this.annotationDocument(source.location, this.walkedPages, local)));
+          break;
+        case 'sheet':
+          await this.guard(local, 'source', source.location, async () => {
+            const loaded = await loadText(source.location, this.fetcher, 'E_SHEET_INVALID', local);
+            this.document({ location: source.location, kind: 'sheet', sha256: loaded.sha256 });
+            const sheet = parseSheet(loaded.text, source.location);
+            this.unbound.push(...sheet.annotations);
+            if (local) for (const m of sheet.manifests) this.trust(m);
+            for (const m of sheet.manifests) await addManifest(isUrl(m) ? m : resolvePath(dirname(source.location), m), [], undefined, !isUrl(m) && local);
+          });
+          break;
       }
     }
-  };
+  }
 
-  const addAnnotationDocument = async (location: string, seen: Set<string>, local: boolean, scope?: { manifestId: string; family?: DocumentFamily }) => {
+  /** Reads a manifest found by the walk again (a second reading: nothing recorded, nothing asked for twice). */
+  async reread(walked: WalkedManifest): Promise<ManifestEntry | undefined> {
+    const was = this.recording;
+    this.recording = false;
+    try {
+      const loaded = await loadJson(walked.location, this.fetcher, 'E_MANIFEST_INVALID', walked.local);
+      const manifest = readersFor(loaded.doc, walked.entry.family).manifest(loaded.doc, walked.location).value;
+      return { ...walked.entry, manifest };
+    } catch {
+      return undefined; // it was read once; a second reading of the same bytes does not fail
+    } finally {
+      this.recording = was;
+    }
+  }
+
+  /** An annotation document and the pages it links to, each read once per `seen`. */
+  private async annotationDocument(location: string, seen: Set<string>, local: boolean, scope?: { manifestId: string; family?: DocumentFamily }): Promise<RegionAnnotation[]> {
+    const out: RegionAnnotation[] = [];
     const queue = [location];
     while (queue.length > 0) {
       const loc = queue.shift()!;
       if (seen.has(loc)) continue;
       seen.add(loc);
+      // A second reading does not ask again for a page that failed the first time.
+      if (!this.recording && this.failedLocations.has(loc)) continue;
       if (seen.size > MAX_PAGES) throw new InputError('E_ANNOTATION_INVALID', location, '', `more than ${MAX_PAGES} annotation pages`);
       const isLocal = local && loc === location;
-      await guard(isLocal, 'source', loc, async () => {
-        const loaded = await loadJson(loc, fetcher, 'E_ANNOTATION_INVALID', isLocal);
-        documents.push({ location: loc, kind: 'annotations', sha256: loaded.sha256 });
-        const parsed = accept(readersFor(loaded.doc, scope?.family).annotations(loaded.doc, loc), isLocal, loc);
-        annotations.push(...parsed.annotations.map((a) => (scope ? { ...a, manifestId: scope.manifestId } : a)));
+      await this.guard(isLocal, 'source', loc, async () => {
+        const loaded = await loadJson(loc, this.fetcher, 'E_ANNOTATION_INVALID', isLocal);
+        this.document({ location: loc, kind: 'annotations', sha256: loaded.sha256 });
+        const parsed = this.accept(readersFor(loaded.doc, scope?.family).annotations(loaded.doc, loc), isLocal, loc);
+        out.push(...parsed.annotations.map((a) => (scope ? { ...a, manifestId: scope.manifestId } : a)));
         queue.push(...parsed.pageRefs.map((ref) => (isUrl(ref) || isUrl(loc) ? new URL(ref, isUrl(loc) ? loc : undefined).toString() : resolvePath(dirname(loc), ref))));
       });
     }
-  };
-
-  const pagesSeen = new Set<string>();
-  for (const source of sources) trust(source.location);
-  for (const source of sources) {
-    const local = !isUrl(source.location);
-    switch (source.kind) {
-      case 'manifest':
-        await addManifest(source.location, [], source.mmPerCanvasUnit, local);
-        break;
-      case 'collection':
-        await guard(local, 'source', source.location, async () => {
-          const loaded = await loadJson(source.location, fetcher, 'E_COLLECTION_INVALID', local);
-          documents.push({ location: source.location, kind: 'collection', sha256: loaded.sha256 });
-          const readers = readersFor(loaded.doc);
-          await walkCollection(accept(readers.collection(loaded.doc, source.location), local, source.location), readers.family, [], source.mmPerCanvasUnit, local);
-        });
-        break;
-      case 'annotations':
-        await addAnnotationDocument(source.location, pagesSeen, local);
-        break;
-      case 'sheet':
-        await guard(local, 'source', source.location, async () => {
-          const loaded = await loadText(source.location, fetcher, 'E_SHEET_INVALID', local);
-          documents.push({ location: source.location, kind: 'sheet', sha256: loaded.sha256 });
-          const sheet = parseSheet(loaded.text, source.location);
-          annotations.push(...sheet.annotations);
-          if (local) for (const m of sheet.manifests) trust(m);
-          for (const m of sheet.manifests) await addManifest(isUrl(m) ? m : resolvePath(dirname(source.location), m), [], undefined, !isUrl(m) && local);
-        });
-        break;
-    }
+    return out;
   }
 
-  // Annotation pages and lists attached to manifests and canvases: their annotations are bound to that manifest.
-  const entries = [...manifests.values()].sort((a, b) => byString(a.manifest.id, b.manifest.id));
-  for (const { manifest, family } of entries) {
+  /**
+   * The annotations of the pages and lists attached to a manifest and its
+   * canvases, bound to it. `pagesSeen` is shared by the manifests of one reading,
+   * taken in manifest id order: a page two manifests share belongs to the first.
+   */
+  async boundAnnotations(entry: ManifestEntry, pagesSeen: Set<string>): Promise<RegionAnnotation[]> {
+    const { manifest, family } = entry;
+    const out: RegionAnnotation[] = [];
     const local = !isUrl(manifest.source);
     const pages = [...manifest.annotationPages, ...manifest.canvases.flatMap((c) => c.annotationPages)];
     const scope = { manifestId: manifest.id, ...(family ? { family } : {}) };
     for (const page of pages) {
       if (page.embedded !== undefined) {
-        await guard(local, 'source', manifest.source, async () => {
+        await this.guard(local, 'source', manifest.source, async () => {
           const readers = readersFor(page.embedded, family);
-          const parsed = accept(readers.annotations(page.embedded, manifest.source, page.pointer), local, manifest.source);
-          annotations.push(...parsed.annotations.map((a) => ({ ...a, manifestId: manifest.id })));
+          const parsed = this.accept(readers.annotations(page.embedded, manifest.source, page.pointer), local, manifest.source);
+          out.push(...parsed.annotations.map((a) => ({ ...a, manifestId: manifest.id })));
         });
       } else if (page.id) {
-        await addAnnotationDocument(page.id, pagesSeen, false, scope);
+        out.push(...(await this.annotationDocument(page.id, pagesSeen, false, scope)));
       }
     }
+    return out;
   }
 
-  // Canvas ids reused by several manifests (it happens in published data): noted, and kept apart by manifest.
-  const owners = new Map<string, string[]>();
-  for (const { manifest } of entries) for (const c of manifest.canvases) owners.set(c.id, [...(owners.get(c.id) ?? []), manifest.id]);
-  for (const [canvasId, ids] of [...owners.entries()].sort((a, b) => byString(a[0], b[0]))) {
-    if (ids.length > 1) notes.push({ kind: 'canvas-id-shared', canvasId, manifests: ids });
-  }
-
-  // Image services: embedded descriptions, else info.json, each fetched once.
-  const services = new Map<string, ImageService>();
-  const refs = new Map<string, { id: string; embedded?: unknown }>();
-  for (const { manifest } of entries) for (const c of manifest.canvases) for (const img of c.images) {
-    const ref = img.services[0];
-    if (ref && !refs.has(ref.id)) refs.set(ref.id, ref);
-  }
-  await Promise.all(
-    [...refs.values()].map(async (ref) => {
-      const url = infoJsonUrl(ref.id);
-      try {
-        if (ref.embedded !== undefined) {
-          try {
-            services.set(ref.id, parseInfoJson(ref.embedded, url));
-            return;
-          } catch {
-            // An embedded stub without full details: fetch the description.
-          }
-        }
-        const loaded = await fetcher.get(url, 'json');
-        let doc: unknown;
+  /** Image services of the manifests' canvases: embedded descriptions, else info.json, each fetched once. */
+  async services(entries: readonly ManifestEntry[]): Promise<Map<string, ImageService>> {
+    const services = new Map<string, ImageService>();
+    const refs = new Map<string, { id: string; embedded?: unknown }>();
+    for (const { manifest } of entries) for (const c of manifest.canvases) for (const img of c.images) {
+      const ref = img.services[0];
+      if (ref && !refs.has(ref.id)) refs.set(ref.id, ref);
+    }
+    await Promise.all(
+      [...refs.values()].map(async (ref) => {
+        if (this.failedServices.has(ref.id)) return;
+        const url = infoJsonUrl(ref.id);
         try {
-          doc = JSON.parse(loaded.body.toString('utf8'));
+          if (ref.embedded !== undefined) {
+            try {
+              services.set(ref.id, parseInfoJson(ref.embedded, url));
+              return;
+            } catch {
+              // An embedded stub without full details: fetch the description.
+            }
+          }
+          const loaded = await this.fetcher.get(url, 'json');
+          let doc: unknown;
+          try {
+            doc = JSON.parse(loaded.body.toString('utf8'));
+          } catch (err) {
+            throw new InputError('E_INFO_INVALID', url, '', `info.json is not valid JSON (${(err as Error).message})`);
+          }
+          services.set(ref.id, parseInfoJson(doc, url));
+          this.document({ location: url, kind: 'info', sha256: loaded.facts.sha256 });
         } catch (err) {
-          throw new InputError('E_INFO_INVALID', url, '', `info.json is not valid JSON (${(err as Error).message})`);
+          // A service that cannot be read loses its images, not the run (its regions are skipped as no-image-service).
+          const f = failureFrom('info', ref.id, err);
+          if (this.opts.strict) throw err instanceof InputError ? err : new StrictError(`${f.url ?? ref.id}: ${f.reason}`);
+          this.failedServices.add(ref.id);
+          if (this.recording) this.failures.push(err instanceof InputError ? { ...f, reason: err.pointer === '' ? err.detail : err.message } : f);
         }
-        services.set(ref.id, parseInfoJson(doc, url));
-        documents.push({ location: url, kind: 'info', sha256: loaded.facts.sha256 });
-      } catch (err) {
-        // A service that cannot be read loses its images, not the run (its regions are skipped as no-image-service).
-        const f = failureFrom('info', ref.id, err);
-        if (opts.strict) throw err instanceof InputError ? err : new StrictError(`${f.url ?? ref.id}: ${f.reason}`);
-        failures.push(err instanceof InputError ? { ...f, reason: err.pointer === '' ? err.detail : err.message } : f);
-      }
-    }),
-  );
+      }),
+    );
+    return services;
+  }
 
+  /** Notes canvas ids that several manifests use (it happens in published data); they are kept apart by manifest. */
+  noteSharedCanvases(manifests: readonly { id: string; canvasIds: readonly string[] }[]): Set<string> {
+    const owners = new Map<string, string[]>();
+    for (const m of manifests) for (const c of m.canvasIds) owners.set(c, [...(owners.get(c) ?? []), m.id]);
+    const shared = new Set<string>();
+    for (const [canvasId, ids] of [...owners.entries()].sort((a, b) => byString(a[0], b[0]))) {
+      if (ids.length > 1) {
+        this.notes.push({ kind: 'canvas-id-shared', canvasId, manifests: ids });
+        shared.add(canvasId);
+      }
+    }
+    return shared;
+  }
+
+  /** The documents, failures and notes in their final order. */
+  finished(): Pick<ResolvedSources, 'documents' | 'failures' | 'notes'> {
+    const documents = [...this.documents].sort((a, b) => byString(a.location, b.location) || byString(a.kind, b.kind));
+    const failures = [...this.failures].sort((a, b) => byString(a.key, b.key) || byString(a.pointer ?? '', b.pointer ?? '') || byString(a.reason, b.reason));
+    return { documents: dedupeDocs(documents), failures, notes: this.notes };
+  }
+}
+
+/** Sorts annotations by id (bound copies before an unbound copy of the same id) and keeps one per id. */
+export function uniqueAnnotations(annotations: RegionAnnotation[]): RegionAnnotation[] {
   // Bound annotations sort before unbound copies of the same id, so the copy kept knows its manifest.
   annotations.sort((a, b) => byString(a.id, b.id) || byString(a.manifestId ?? '\uffff', b.manifestId ?? '\uffff'));
-  documents.sort((a, b) => byString(a.location, b.location) || byString(a.kind, b.kind));
-  failures.sort((a, b) => byString(a.key, b.key) || byString(a.pointer ?? '', b.pointer ?? '') || byString(a.reason, b.reason));
   // One annotation may be reachable from two places: keep one.
-  const uniqueAnnotations = annotations.filter((a, i) => i === 0 || annotations[i - 1].id !== a.id);
-  return { manifests: entries, annotations: uniqueAnnotations, services, documents: dedupeDocs(documents), failures, notes };
+  return annotations.filter((a, i) => i === 0 || annotations[i - 1].id !== a.id);
+}
+
+/**
+ * Resolves a recipe's sources at once: every manifest, its annotations and the
+ * info.json of its image services (see `SourceReader` for what is read and how
+ * problems are treated).
+ */
+export async function resolveSources(sources: readonly SourceSpec[], fetcher: Fetcher, opts: ResolveOptions = {}): Promise<ResolvedSources> {
+  const reader = new SourceReader(fetcher, opts);
+  const walked: ManifestEntry[] = [];
+  await reader.walk(sources, (m) => walked.push(m.entry));
+  // Annotation pages and lists attached to manifests and canvases: their annotations are bound to that manifest.
+  const entries = walked.sort((a, b) => byString(a.manifest.id, b.manifest.id));
+  const annotations = [...reader.unbound];
+  const pagesSeen = new Set(reader.walkedPages);
+  for (const entry of entries) annotations.push(...(await reader.boundAnnotations(entry, pagesSeen)));
+  reader.noteSharedCanvases(entries.map((e) => ({ id: e.manifest.id, canvasIds: e.manifest.canvases.map((c) => c.id) })));
+  const services = await reader.services(entries);
+  return { manifests: entries, annotations: uniqueAnnotations(annotations), services, ...reader.finished() };
 }
 
 function dedupeDocs(docs: SourceDocument[]): SourceDocument[] {

@@ -1,0 +1,15 @@
+import { loadRecipe } from '../src/recipe/load.ts';
+import { openFetcher } from '../src/pipeline.ts';
+import { resolveSources } from '../src/sources/resolve.ts';
+import { planInto } from '../src/plan/plan-dataset.ts';
+const mem = (l: string) => { (globalThis as any).gc(); const m = process.memoryUsage(); console.log(l, 'heap', Math.round(m.heapUsed / 2 ** 20), 'rss', Math.round(m.rss / 2 ** 20), 'ext', Math.round(m.external/2**20), 'ab', Math.round(m.arrayBuffers/2**20)); };
+mem('start');
+const recipe = await loadRecipe(process.argv[2]!);
+const fetcher = await openFetcher(recipe, { cacheDir: '/tmp/scale/probe-cache' });
+mem('opened');
+const sources = await resolveSources(recipe.sources, fetcher, {});
+mem('resolved');
+let n = 0;
+planInto(recipe, sources, { crop: () => n++, patch: () => n++, region: () => n++, skip: () => n++ });
+mem('planned (nothing kept)');
+console.log('peak rss', Math.round(process.resourceUsage().maxRSS / 1024));
