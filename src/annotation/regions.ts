@@ -123,6 +123,17 @@ export function classify(labels: readonly string[], index: Map<string, string>, 
 }
 
 /**
+ * Which part of the annotations one call handles, when the canvases are planned
+ * a manifest at a time: the targets on the manifest's canvases (`ownsTarget`),
+ * and whether an annotation's own skip (a label that matches no class) is
+ * reported here (it is reported once, where the annotation is handled whole).
+ */
+export interface RegionScope {
+  ownsTarget?: (a: RegionAnnotation, targetIndex: number) => boolean;
+  reportsAnnotation?: (a: RegionAnnotation) => boolean;
+}
+
+/**
  * Turns annotations into regions on known canvases. Every annotation either
  * yields regions or is recorded as skipped with a reason; none is dropped silently.
  * Output is sorted by region key, whatever the input order.
@@ -131,7 +142,9 @@ export function extractRegions(
   annotations: readonly RegionAnnotation[],
   canvases: CanvasLookup,
   index: Map<string, string>,
+  scope: RegionScope = {},
 ): { regions: Region[]; skipped: SkippedRegion[]; obstacles: Map<string, Rect[]> } {
+  const owns = scope.ownsTarget ?? (() => true);
   const regions: Region[] = [];
   const skipped: SkippedRegion[] = [];
   /** Areas negatives must keep clear of, by canvas key. */
@@ -140,7 +153,9 @@ export function extractRegions(
     const cls = classify(a.labels, index, a.unreadableBodies);
     // Every annotated area is an obstacle for negatives, whatever its label; a whole-canvas target only
     // when it names a class (a comment on the whole board says nothing about where the material is).
-    for (const t of a.targets) {
+    for (let i = 0; i < a.targets.length; i++) {
+      const t = a.targets[i]!;
+      if (!owns(a, i)) continue;
       const ctx = canvases.find(t.canvasId, a.manifestId, t.within);
       if (!ctx || (t.selector.kind === 'whole' && 'skip' in cls)) continue;
       const c = ctx.canvas;
@@ -154,10 +169,11 @@ export function extractRegions(
       obstacles.set(key, list);
     }
     if ('skip' in cls) {
-      skipped.push({ annotationId: a.id, reason: cls.skip, detail: cls.detail });
+      if (scope.reportsAnnotation?.(a) ?? true) skipped.push({ annotationId: a.id, reason: cls.skip, detail: cls.detail });
       continue;
     }
     a.targets.forEach((t, i) => {
+      if (!owns(a, i)) return;
       const ctx = canvases.find(t.canvasId, a.manifestId, t.within);
       if (!ctx) {
         skipped.push({ annotationId: a.id, reason: 'unknown-canvas', detail: a.manifestId ? `target ${t.canvasId} is on no canvas of ${a.manifestId}, the manifest it was reached through` : `target ${t.canvasId} is on no canvas of the sources` });

@@ -78,20 +78,27 @@ export function negativeCandidates(c: NegativeCanvas, spec: Pick<NegativeSpec, '
   return list.map(({ u, v }) => ({ u, v }));
 }
 
-/**
- * Plans the negatives (pure): `ratio` × the positives of the average class,
- * given to canvases in proportion to their positives (largest remainder); each
- * canvas takes its first candidates in seeded order; a canvas short of
- * candidates borrows from other canvases of its group, so negatives never cross
- * a split boundary. Candidates are computed per canvas when needed and not kept:
- * memory stays flat in the number of canvases.
- */
-export function planNegatives(spec: NegativeSpec, canvases: readonly NegativeCanvas[]): NegativePlan {
-  const positives = canvases.reduce((a, c) => a + c.positives, 0);
-  const wanted = spec.classes === 0 ? 0 : Math.round((spec.ratio * positives) / spec.classes);
-  if (wanted === 0) return { picks: [], wanted: 0, planned: 0, borrowedWithinGroup: 0, shortfall: 0 };
+/** How many negatives are wanted in all: `ratio` × the positives of the average class. */
+export function negativesWanted(spec: Pick<NegativeSpec, 'ratio' | 'classes'>, positives: number): number {
+  return spec.classes === 0 ? 0 : Math.round((spec.ratio * positives) / spec.classes);
+}
+
+/** Each canvas's share of the negatives, by canvas key: in proportion to its positives (largest remainder, ties by key). */
+export function negativeQuotas(canvases: readonly Pick<NegativeCanvas, 'key' | 'positives'>[], wanted: number): Map<string, number> {
   const sorted = [...canvases].sort((a, b) => byString(a.key, b.key));
   const quota = proportionalQuotas(sorted.map((c) => ({ key: c.key, weight: c.positives })), wanted);
+  return new Map(sorted.map((c, i) => [c.key, quota[i]!]));
+}
+
+/**
+ * Takes each canvas's quota of negatives (pure): its first candidates in seeded
+ * order; a canvas short of candidates borrows from other canvases of its group,
+ * so negatives never cross a split boundary. Canvases of one group must all be
+ * in `canvases`: given a manifest's canvases at a time (groups never span
+ * manifests), the picks are those of all canvases at once.
+ */
+export function pickNegatives(spec: NegativeSpec, canvases: readonly NegativeCanvas[], quotas: ReadonlyMap<string, number>): { picks: NegativePick[]; borrowedWithinGroup: number } {
+  const sorted = [...canvases].sort((a, b) => byString(a.key, b.key));
   const picks: NegativePick[] = [];
   const taken = new Map<string, number>();
   const take = (c: NegativeCanvas, n: number): number => {
@@ -103,10 +110,11 @@ export function planNegatives(spec: NegativeSpec, canvases: readonly NegativeCan
     return chosen.length;
   };
   const shortBy: [NegativeCanvas, number][] = [];
-  sorted.forEach((c, i) => {
-    const got = take(c, quota[i]);
-    if (got < quota[i]) shortBy.push([c, quota[i] - got]);
-  });
+  for (const c of sorted) {
+    const quota = quotas.get(c.key) ?? 0;
+    const got = take(c, quota);
+    if (got < quota) shortBy.push([c, quota - got]);
+  }
   let borrowed = 0;
   for (const [c, missing] of shortBy) {
     let need = missing;
@@ -118,5 +126,20 @@ export function planNegatives(spec: NegativeSpec, canvases: readonly NegativeCan
       borrowed += got;
     }
   }
-  return { picks, wanted, planned: picks.length, borrowedWithinGroup: borrowed, shortfall: wanted - picks.length };
+  return { picks, borrowedWithinGroup: borrowed };
+}
+
+/**
+ * Plans the negatives (pure): `ratio` × the positives of the average class,
+ * given to canvases in proportion to their positives (largest remainder); each
+ * canvas takes its first candidates in seeded order; a canvas short of
+ * candidates borrows from other canvases of its group, so negatives never cross
+ * a split boundary. Candidates are computed per canvas when needed and not kept:
+ * memory stays flat in the number of canvases.
+ */
+export function planNegatives(spec: NegativeSpec, canvases: readonly NegativeCanvas[]): NegativePlan {
+  const wanted = negativesWanted(spec, canvases.reduce((a, c) => a + c.positives, 0));
+  if (wanted === 0) return { picks: [], wanted: 0, planned: 0, borrowedWithinGroup: 0, shortfall: 0 };
+  const { picks, borrowedWithinGroup } = pickNegatives(spec, canvases, negativeQuotas(canvases, wanted));
+  return { picks, wanted, planned: picks.length, borrowedWithinGroup, shortfall: wanted - picks.length };
 }

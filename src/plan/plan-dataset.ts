@@ -3,13 +3,13 @@ import { intersects, tidyRect } from '../geometry/rect.ts';
 import { Placement, canvasToImage } from '../geometry/placement.ts';
 import type { ImageService } from '../iiif/image-service.ts';
 import { mergeProvenance, PaintedImage, Provenance } from '../iiif/presentation.ts';
-import { CanvasContext, CanvasLookup, canvasKey, extractRegions, labelIndex, Region, SkippedRegion } from '../annotation/regions.ts';
+import { CanvasContext, CanvasLookup, canvasKey, extractRegions, labelIndex, Region, RegionScope, SkippedRegion } from '../annotation/regions.ts';
 import type { BodyTag } from '../annotation/body-tags.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ManifestEntry, ResolvedSources } from '../sources/resolve.ts';
 import { byString, stableId } from '../util/hash.ts';
 import { positivePatches } from '../patch/positives.ts';
-import { NegativeCanvas, planNegatives } from '../patch/negatives.ts';
+import { NegativeCanvas, NegativePlan, pickNegatives, planNegatives } from '../patch/negatives.ts';
 import type { CropRequest } from './crop-request.ts';
 import { PlanError } from '../errors.ts';
 import { planCrop } from './plan-crop.ts';
@@ -141,6 +141,21 @@ export interface PlanSink {
 export type PlanTotals = Pick<DatasetPlan, 'negatives' | 'rightsExcluded'>;
 
 /**
+ * What one planning call covers. By default: everything in its sources. The
+ * streaming planner plans a manifest at a time, twice: positives first (their
+ * counts per canvas set every canvas's share of the negatives), then negatives
+ * from the shares it is given; it says which annotation targets and skips are
+ * this manifest's, and which canvas ids other manifests share.
+ */
+export interface PlanScope extends RegionScope {
+  /** Plan positives, and report regions and skips (default true). */
+  positives?: boolean;
+  /** Negatives from this call's positives ('here', the default), from given counts and quotas, or none. */
+  negatives?: 'here' | 'none' | { positivesPerCanvas: ReadonlyMap<string, number>; quotas: ReadonlyMap<string, number> };
+  sharedCanvasIds?: ReadonlySet<string>;
+}
+
+/**
  * Plans the whole dataset: regions from annotations, one crop per region, the
  * positive patches each crop yields (by mask coverage), and seeded negatives on
  * the same canvases. Pure: the same inputs give the same plan, in sorted order.
@@ -151,7 +166,7 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
   const patches: PatchPlan[] = [];
   const regions: Region[] = [];
   const skipped: PlanSkip[] = [];
-  const totals = planInto(recipe, sources, {
+  const { negatives, rightsExcluded } = planInto(recipe, sources, {
     crop: (crop, ctx) => {
       crops.push(crop);
       contexts.push([crop.key, ctx]);
@@ -166,7 +181,8 @@ export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPl
     contexts: Object.fromEntries(contexts.sort((a, b) => byString(a[0], b[0]))),
     regions,
     skipped: skipped.sort(bySkipOrder),
-    ...totals,
+    negatives,
+    rightsExcluded,
   };
 }
 
@@ -181,14 +197,18 @@ export function bySkipOrder(a: PlanSkip, b: PlanSkip): number {
  * kept here but crop keys and counts per canvas, so a sink that writes items
  * away holds planning's memory to its sources.
  */
-export function planInto(recipe: Recipe, sources: ResolvedSources, sink: PlanSink): PlanTotals {
+export function planInto(recipe: Recipe, sources: Pick<ResolvedSources, 'manifests' | 'annotations' | 'services'>, sink: PlanSink, scope: PlanScope = {}): PlanTotals & { positivesPerCanvas: Map<string, number> } {
   const rightsExcluded: DatasetPlan['rightsExcluded'] = [];
   const canvases = new CanvasLookup<CanvasContext & { entry: ManifestEntry; index: number }>(
     sources.manifests.flatMap((entry) => entry.manifest.canvases.map((canvas, index) => ({ manifest: entry.manifest, canvas, entry, index }))),
   );
-  const { regions, skipped: regionSkips, obstacles } = extractRegions(sources.annotations, canvases, labelIndex(recipe.labels));
-  for (const r of regions) sink.region(r);
-  for (const x of regionSkips) sink.skip({ key: x.annotationId, reason: x.reason, detail: x.detail });
+  const planPositives = scope.positives ?? true;
+  const { regions, skipped: regionSkips, obstacles } = extractRegions(sources.annotations, canvases, labelIndex(recipe.labels), scope);
+  if (planPositives) {
+    for (const r of regions) sink.region(r);
+    for (const x of regionSkips) sink.skip({ key: x.annotationId, reason: x.reason, detail: x.detail });
+  }
+  const isShared = (canvasId: string) => canvases.isShared(canvasId) || !!scope.sharedCanvasIds?.has(canvasId);
   const s = recipe.patch;
   const cropKeys = new Set<string>();
   const positivesPerCanvas = new Map<string, number>();
@@ -231,7 +251,7 @@ export function planInto(recipe: Recipe, sources: ResolvedSources, sink: PlanSin
     }
   };
 
-  for (const region of regions) {
+  for (const region of planPositives ? regions : []) {
     const prep = prepare(canvasKey(region.manifestId, region.canvasId), region.bounds);
     if ('skip' in prep) {
       sink.skip({ key: region.key, reason: prep.skip, detail: prep.detail });
@@ -286,8 +306,11 @@ export function planInto(recipe: Recipe, sources: ResolvedSources, sink: PlanSin
     positivesPerCanvas.set(ck, (positivesPerCanvas.get(ck) ?? 0) + kept);
   }
 
-  const negatives = addNegatives(recipe, regions, positivesPerCanvas, canvases, obstacles, prepare, addCrop, sink);
-  return { negatives, rightsExcluded: rightsExcluded.sort((a, b) => byString(a.manifestId, b.manifestId)) };
+  const mode = scope.negatives ?? 'here';
+  const negatives = mode === 'none'
+    ? { wanted: 0, planned: 0, borrowedWithinGroup: 0, shortfall: 0 }
+    : addNegatives(recipe, regions, mode === 'here' ? { positivesPerCanvas } : mode, canvases, isShared, obstacles, prepare, addCrop, sink);
+  return { negatives, rightsExcluded: rightsExcluded.sort((a, b) => byString(a.manifestId, b.manifestId)), positivesPerCanvas };
 }
 
 type Ready = { ctx: CropContext; placement: Placement; image: PaintedImage; occluders: Rect[] };
@@ -300,8 +323,9 @@ type Prepared = Ready | { skip: PlanSkipReason; detail: string };
 function addNegatives(
   recipe: Recipe,
   regions: readonly Region[],
-  positivesPerCanvas: ReadonlyMap<string, number>,
+  given: { positivesPerCanvas: ReadonlyMap<string, number>; quotas?: ReadonlyMap<string, number> },
   canvases: CanvasLookup<CanvasContext & { entry: ManifestEntry }>,
+  isShared: (canvasId: string) => boolean,
   obstacles: ReadonlyMap<string, Rect[]>,
   prepare: (canvasKey: string, bounds: Rect) => Prepared,
   addCrop: (crop: CropRequest, ctx: CropContext) => void,
@@ -313,16 +337,24 @@ function addNegatives(
     return recipe.split.groupBy === 'manifest' ? `manifest:${c.manifest.id}` : `canvas:${c.canvas.id}`;
   };
   const ready = new Map<string, Ready>();
-  const facts: NegativeCanvas[] = [...positivesPerCanvas.entries()].map(([key, positives]) => {
+  const facts: NegativeCanvas[] = [...given.positivesPerCanvas.entries()].map(([key, positives]) => {
     const c = canvases.byCanvasKey(key)!;
     const prep = prepare(key, { x: 0, y: 0, w: c.canvas.width, h: c.canvas.height });
-    const rankKey = canvases.isShared(c.canvas.id) ? key : c.canvas.id;
+    const rankKey = isShared(c.canvas.id) ? key : c.canvas.id;
     if ('skip' in prep) return { key, group: groupOfCanvas(key), positives, px: 1, obstacles: [], rankKey };
     ready.set(key, prep);
     const px = prep.ctx.scale.pixelsPerCanvasUnit;
     return { key, group: groupOfCanvas(key), positives, px, painted: innerOutputBox(prep.placement.target, px), obstacles: [...(obstacles.get(key) ?? []), ...prep.occluders], rankKey };
   });
-  const plan = planNegatives({ seed: recipe.seed, ratio: recipe.negatives.ratio, margin: recipe.negatives.margin, size, classes: Object.keys(recipe.labels).length }, facts);
+  const spec = { seed: recipe.seed, ratio: recipe.negatives.ratio, margin: recipe.negatives.margin, size, classes: Object.keys(recipe.labels).length };
+  // Quotas given (a manifest at a time): the wanted total and the shortfall are counted over all manifests by the caller.
+  let plan: NegativePlan;
+  if (given.quotas) {
+    const { picks, borrowedWithinGroup } = pickNegatives(spec, facts, given.quotas);
+    plan = { picks, wanted: 0, planned: picks.length, borrowedWithinGroup, shortfall: 0 };
+  } else {
+    plan = planNegatives(spec, facts);
+  }
   const regionsByCanvas = new Map<string, Region[]>();
   for (const r of regions) {
     const k = canvasKey(r.manifestId, r.canvasId);
@@ -348,7 +380,7 @@ function addNegatives(
     }
     sink.patch({
       // Canvas ids alone are kept in the id so datasets stay stable; a canvas id shared by manifests adds the manifest.
-      id: stableId(['negative', canvases.isShared(c.canvas.id) ? pick.key : c.canvas.id, px, pick.u, pick.v, size]),
+      id: stableId(['negative', isShared(c.canvas.id) ? pick.key : c.canvas.id, px, pick.u, pick.v, size]),
       label: recipe.negatives.label,
       kind: 'negative',
       group,
