@@ -8,10 +8,11 @@ import { canvasFacts } from './dataset/canvas-facts.ts';
 import { lockFrom, lockedSplits, readLock, writeLock, LockFile } from './net/lock.ts';
 import { DEFAULT_RETRY_POLICY } from './net/retry-policy.ts';
 import { harvestCrops, HarvestResult } from './harvest/harvest.ts';
-import { planDataset, DatasetPlan } from './plan/plan-dataset.ts';
+import { PlanCollector, DatasetPlan } from './plan/plan-dataset.ts';
+import { planByManifest, ServiceSummary } from './plan/plan-by-manifest.ts';
 import type { CropRequest } from './plan/crop-request.ts';
 import type { Recipe } from './recipe/types.ts';
-import { resolveSources, ResolvedSources } from './sources/resolve.ts';
+import type { ResolvedSources } from './sources/resolve.ts';
 import { FolderTransaction } from './dataset/write-folder.ts';
 import { serialiseLock } from './net/lock.ts';
 import { sha256Hex } from './util/hash.ts';
@@ -88,17 +89,24 @@ export async function openFetcher(recipe: Recipe, opts: RunOptions): Promise<Fet
   });
 }
 
+/** What planning read: the documents, failures and notes of the sources, how many manifests, which image services. */
+export type PlannedSources = Pick<ResolvedSources, 'documents' | 'failures' | 'notes'> & { manifests: number; services: ServiceSummary[] };
+
 export interface Planned {
-  sources: ResolvedSources;
+  sources: PlannedSources;
   plan: DatasetPlan;
   fetcher: Fetcher;
 }
 
-/** Resolves sources (fetching manifests, annotations and info.json) and plans crops and patches. */
+/**
+ * Resolves sources (fetching manifests, annotations and info.json) and plans
+ * crops and patches, a manifest at a time (see `planByManifest`); the plan is kept in memory.
+ */
 export async function planRecipe(recipe: Recipe, opts: RunOptions = {}): Promise<Planned> {
   const fetcher = await openFetcher(recipe, opts);
-  const sources = await resolveSources(recipe.sources, fetcher, { strict: !!opts.strict });
-  return { sources, plan: planDataset(recipe, sources), fetcher };
+  const collector = new PlanCollector();
+  const { sources, manifests, services, ...totals } = await planByManifest(recipe, fetcher, collector, { strict: !!opts.strict, services: true });
+  return { sources: { ...sources, manifests, services: services ?? [] }, plan: collector.plan(totals), fetcher };
 }
 
 /**

@@ -166,12 +166,12 @@ export async function main(argv: string[], io: { stdout?: NodeJS.WriteStream; st
       const pixels = [...new Map(plan.crops.flatMap((c) => c.stitch.pieces.map((p) => [p.url, p.expectWidth * p.expectHeight] as const))).values()].reduce((a, b) => a + b, 0);
       // Estimate: 3 bytes per pixel compressed about 2:1 for PNG and 10:1 for JPEG (common practice).
       const estimatedBytes = Math.round(pixels * 3 * (recipe.request.format === 'png' ? 0.5 : 0.1));
-      const servers = [...sources.services.values()].map((s) => ({ id: s.id, version: s.version, level: s.level, width: s.width, height: s.height })).sort((a, b) => (a.id < b.id ? -1 : 1));
+      const servers = sources.services;
       const skipped: Record<string, number> = {};
       for (const s of plan.skipped) skipped[s.reason] = (skipped[s.reason] ?? 0) + 1;
-      const summary = { manifests: sources.manifests.length, regionsPerClass: perClass, patchesPerClass, crops: plan.crops.length, requests: urls.size, estimatedBytes, servers, skipped, negatives: plan.negatives, failures: sources.failures };
+      const summary = { manifests: sources.manifests, regionsPerClass: perClass, patchesPerClass, crops: plan.crops.length, requests: urls.size, estimatedBytes, servers, skipped, negatives: plan.negatives, failures: sources.failures };
       const human = [
-        `${sources.manifests.length} manifest(s), ${plan.regions.length} region(s): ${Object.entries(perClass).map(([k, v]) => `${k} ${v}`).join(', ') || 'none'}`,
+        `${sources.manifests} manifest(s), ${plan.regions.length} region(s): ${Object.entries(perClass).map(([k, v]) => `${k} ${v}`).join(', ') || 'none'}`,
         `patches planned: ${Object.entries(patchesPerClass).map(([k, v]) => `${k} ${v}`).join(', ') || 'none'}`,
         `${plan.crops.length} crop(s) from ${urls.size} image request(s), about ${(estimatedBytes / 1e6).toFixed(1)} MB`,
         ...servers.map((s) => `  ${redactUrl(s.id)}  Image API ${s.version} level ${s.level}  ${s.width}×${s.height}`),

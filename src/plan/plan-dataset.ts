@@ -161,29 +161,46 @@ export interface PlanScope extends RegionScope {
  * the same canvases. Pure: the same inputs give the same plan, in sorted order.
  */
 export function planDataset(recipe: Recipe, sources: ResolvedSources): DatasetPlan {
-  const crops: CropRequest[] = [];
-  const contexts: [string, CropContext][] = [];
-  const patches: PatchPlan[] = [];
-  const regions: Region[] = [];
-  const skipped: PlanSkip[] = [];
-  const { negatives, rightsExcluded } = planInto(recipe, sources, {
-    crop: (crop, ctx) => {
-      crops.push(crop);
-      contexts.push([crop.key, ctx]);
-    },
-    patch: (p) => patches.push(p),
-    region: (r) => regions.push(r),
-    skip: (x) => skipped.push(x),
-  });
-  return {
-    crops: crops.sort((a, b) => byString(a.key, b.key)),
-    patches: patches.sort((a, b) => byString(a.id, b.id)),
-    contexts: Object.fromEntries(contexts.sort((a, b) => byString(a[0], b[0]))),
-    regions,
-    skipped: skipped.sort(bySkipOrder),
-    negatives,
-    rightsExcluded,
-  };
+  const collector = new PlanCollector();
+  return collector.plan(planInto(recipe, sources, collector));
+}
+
+/**
+ * A sink that keeps what planning gives it and sorts it into a DatasetPlan:
+ * crops and contexts by key (the first context given for a key is kept), patches
+ * by id, regions by key, skips by key and reason.
+ */
+export class PlanCollector implements PlanSink {
+  private readonly crops = new Map<string, CropRequest>();
+  private readonly contexts = new Map<string, CropContext>();
+  private readonly patches: PatchPlan[] = [];
+  private readonly regions: Region[] = [];
+  private readonly skipped: PlanSkip[] = [];
+  crop(crop: CropRequest, ctx: CropContext): void {
+    if (this.crops.has(crop.key)) return;
+    this.crops.set(crop.key, crop);
+    this.contexts.set(crop.key, ctx);
+  }
+  patch(p: PatchPlan): void {
+    this.patches.push(p);
+  }
+  region(r: Region): void {
+    this.regions.push(r);
+  }
+  skip(x: PlanSkip): void {
+    this.skipped.push(x);
+  }
+  plan(totals: PlanTotals): DatasetPlan {
+    return {
+      crops: [...this.crops.values()].sort((a, b) => byString(a.key, b.key)),
+      patches: this.patches.sort((a, b) => byString(a.id, b.id)),
+      contexts: Object.fromEntries([...this.contexts.entries()].sort((a, b) => byString(a[0], b[0]))),
+      regions: this.regions.sort((a, b) => byString(a.key, b.key)),
+      skipped: this.skipped.sort(bySkipOrder),
+      negatives: totals.negatives,
+      rightsExcluded: totals.rightsExcluded,
+    };
+  }
 }
 
 /** The order of a plan's skips: by key, then reason (a stable sort: ties keep the order they were planned in). */

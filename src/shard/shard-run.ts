@@ -14,8 +14,7 @@ import { mapLines, writeTextParts } from '../util/text-file.ts';
 import { ContentCache, ResponseFacts } from '../net/cache.ts';
 import type { DatasetPlan } from '../plan/plan-dataset.ts';
 import { buildFromHarvest, BuildSummary, defaultCacheDir, harvestThumbnails, openFetcher, RunOptions } from '../pipeline.ts';
-import { planInto } from '../plan/plan-dataset.ts';
-import { resolveSources } from '../sources/resolve.ts';
+import { planByManifest } from '../plan/plan-by-manifest.ts';
 import { ExternalSort } from '../util/external-sort.ts';
 import { loadRecipe } from '../recipe/load.ts';
 import type { Recipe } from '../recipe/types.ts';
@@ -71,18 +70,22 @@ export interface PlannedShards {
  */
 export async function planShards(recipe: Recipe, n: number, dir: string, opts: RunOptions & { sortRunChars?: number } = {}): Promise<PlannedShards> {
   const fetcher = await openFetcher(recipe, opts);
-  const sources = await resolveSources(recipe.sources, fetcher, { strict: !!opts.strict });
   await mkdir(dir, { recursive: true });
   const sorter = new ExternalSort(join(dir, `.tmp-${processTag}-sort`), opts.sortRunChars);
   const loads = new HostLoads();
-  let crops = 0;
   let patches = 0;
-  let regions = 0;
-  // Lines sort by list (the order planFolderLines writes them in), then as DatasetPlan sorts each list.
-  const totals = planInto(recipe, sources, {
+  // Crop keys are 16 hex digits; their first 13 (52 bits) as numbers count each crop once in little memory
+  // (two keys alike in 52 bits, at odds of about n²/2⁵³, would count as one crop of an estimate).
+  const crops = new Set<number>();
+  // Lines sort by list (the order planFolderLines writes them in), then as DatasetPlan sorts each list;
+  // a crop (and its context) given again keeps its first line.
+  const { sources, manifests: _manifests, ...totals } = await planByManifest(recipe, fetcher, {
     crop: (crop, ctx) => {
-      crops++;
-      loads.add(crop);
+      const short = parseInt(crop.key.slice(0, 13), 16);
+      if (!crops.has(short)) {
+        crops.add(short);
+        loads.add(crop);
+      }
       sorter.add(['0', crop.key], JSON.stringify({ crops: crop }));
       sorter.add(['4', crop.key], JSON.stringify({ context: crop.key, value: ctx }));
     },
@@ -90,13 +93,9 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
       patches++;
       sorter.add(['1', p.id], JSON.stringify({ patches: p }));
     },
-    // Regions come in their order already: the order they were added in keeps it.
-    region: (r) => {
-      regions++;
-      sorter.add(['2'], JSON.stringify({ regions: r }));
-    },
+    region: (r) => sorter.add(['2', r.key], JSON.stringify({ regions: r })),
     skip: (x) => sorter.add(['3', x.key, x.reason], JSON.stringify({ skipped: x })),
-  });
+  }, { strict: !!opts.strict });
   const folderSources = { failures: sources.failures, notes: sources.notes ?? [], documents: sources.documents };
   const shards = loads.partition(n);
   const head: PlanFolder = {
@@ -109,10 +108,10 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
     trustedHosts: [...new Set(fetcher.options.trustedHosts ?? [])].sort(byString),
   };
   const tmp = join(dir, `.tmp-${processTag}-plan.jsonl`);
-  await writeTextParts(tmp, linesOf(JSON.stringify(head), sorter.sorted()));
+  await writeTextParts(tmp, linesOf(JSON.stringify(head), sorter.sorted({ dropRepeats: (key) => key[0] === '0' || key[0] === '4' })));
   await rename(tmp, join(dir, PLAN_FILE));
   await writeFileAtomic(join(dir, 'shards.json'), `${JSON.stringify(shards, null, 2)}\n`);
-  return { shards, crops, patches, sources: folderSources };
+  return { shards, crops: crops.size, patches, sources: folderSources };
 }
 
 function* linesOf(first: string, rest: Iterable<string>): Generator<string> {

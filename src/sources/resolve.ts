@@ -232,7 +232,7 @@ export class SourceReader {
   }
 
   /** Reads a manifest found by the walk again (a second reading: nothing recorded, nothing asked for twice). */
-  async reread(walked: WalkedManifest): Promise<ManifestEntry | undefined> {
+  async reread(walked: { location: string; local: boolean; entry: Omit<ManifestEntry, 'manifest'> }): Promise<ManifestEntry | undefined> {
     const was = this.recording;
     this.recording = false;
     try {

@@ -75,8 +75,12 @@ export class ExternalSort {
     this.chars = 0;
   }
 
-  /** Every line added, in key order (each run read a piece at a time). Removes the run files when done. */
-  *sorted(): Generator<string> {
+  /**
+   * Every line added, in key order (each run read a piece at a time). Removes the
+   * run files when done. `dropRepeats` drops a line whose key equals the line
+   * before it (the first added is kept) when it says so for that key.
+   */
+  *sorted(opts: { dropRepeats?: (key: readonly string[]) => boolean } = {}): Generator<string> {
     this.buffer.sort(compareEntries);
     const readers = this.runs.map((path) => new LineReader(path));
     const heads: { next: () => Entry | undefined; head: Entry | undefined }[] = readers.map((reader) => {
@@ -92,12 +96,16 @@ export class ExternalSort {
     let i = 0;
     const memory = { next: () => this.buffer[i++], head: this.buffer[i++] };
     heads.push(memory);
+    let last: readonly string[] | undefined;
     try {
       for (;;) {
         let best: (typeof heads)[number] | undefined;
         for (const h of heads) if (h.head && (!best || compareEntries(h.head, best.head!) < 0)) best = h;
         if (!best) break;
-        yield best.head!.line;
+        const { key, line } = best.head!;
+        const repeat = last !== undefined && key.length === last.length && key.every((k, j) => k === last![j]);
+        if (!(repeat && opts.dropRepeats?.(key))) yield line;
+        last = key;
         best.head = best.next();
       }
     } finally {

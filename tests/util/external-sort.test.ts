@@ -32,6 +32,11 @@ describe('sorting lines in bounded memory', () => {
         expect([...sorter.sorted()], `n=${n}`).toEqual(expected);
         expect(existsSync(dir)).toBe(false);
       }
+      // Repeated keys: the first line added for a key is kept where dropRepeats says so, every line elsewhere.
+      const sorter = new ExternalSort(join(base, 'repeats'), 40);
+      const lines = ['b 1', 'a 1', 'b 2', 'c 1', 'a 2', 'c 2', 'a 3'];
+      for (const l of lines) sorter.add([l[0]!], l);
+      expect([...sorter.sorted({ dropRepeats: (key) => key[0] !== 'c' })]).toEqual(['a 1', 'b 1', 'c 1', 'c 2']);
     } finally {
       await rm(base, { recursive: true, force: true });
     }
