@@ -9,7 +9,7 @@ import { lockFrom, lockedSplits, readLock, writeLock, LockFile } from './net/loc
 import { DEFAULT_RETRY_POLICY } from './net/retry-policy.ts';
 import { harvestCrops, HarvestResult } from './harvest/harvest.ts';
 import { PlanCollector, DatasetPlan } from './plan/plan-dataset.ts';
-import { planByManifest, ServiceSummary } from './plan/plan-by-manifest.ts';
+import { planByManifest, ServiceSummary } from './plan-by-manifest.ts';
 import type { CropRequest } from './plan/crop-request.ts';
 import type { Recipe } from './recipe/types.ts';
 import type { ResolvedSources } from './sources/resolve.ts';

@@ -14,7 +14,7 @@ import { mapLines, writeTextParts } from '../util/text-file.ts';
 import { ContentCache, ResponseFacts } from '../net/cache.ts';
 import type { DatasetPlan } from '../plan/plan-dataset.ts';
 import { buildFromHarvest, BuildSummary, defaultCacheDir, harvestThumbnails, openFetcher, RunOptions } from '../pipeline.ts';
-import { planByManifest } from '../plan/plan-by-manifest.ts';
+import { planByManifest } from '../plan-by-manifest.ts';
 import { ExternalSort } from '../util/external-sort.ts';
 import { loadRecipe } from '../recipe/load.ts';
 import type { Recipe } from '../recipe/types.ts';

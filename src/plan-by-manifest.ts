@@ -13,15 +13,15 @@
  * context of the first manifest by id; an image service that two manifests
  * describe differently (embedded) is read from each manifest's own description.
  */
-import { CanvasLookup, canvasKey, extractRegions, labelIndex } from '../annotation/regions.ts';
-import type { RegionAnnotation } from '../annotation/web-annotation.ts';
-import type { ImageService } from '../iiif/image-service.ts';
-import type { Fetcher } from '../net/fetcher.ts';
-import { negativeQuotas, negativesWanted } from '../patch/negatives.ts';
-import type { Recipe } from '../recipe/types.ts';
-import { ManifestEntry, ResolvedSources, ResolveOptions, SourceReader, uniqueAnnotations } from '../sources/resolve.ts';
-import { byString } from '../util/hash.ts';
-import { DatasetPlan, PlanSink, PlanTotals, planInto } from './plan-dataset.ts';
+import { CanvasLookup, canvasKey, extractRegions, labelIndex } from './annotation/regions.ts';
+import type { RegionAnnotation } from './annotation/web-annotation.ts';
+import type { ImageService } from './iiif/image-service.ts';
+import type { Fetcher } from './net/fetcher.ts';
+import { negativeQuotas, negativesWanted } from './patch/negatives.ts';
+import type { Recipe } from './recipe/types.ts';
+import { ManifestEntry, ResolvedSources, ResolveOptions, SourceReader, uniqueAnnotations } from './sources/resolve.ts';
+import { byString } from './util/hash.ts';
+import { DatasetPlan, PlanSink, PlanTotals, planInto } from './plan/plan-dataset.ts';
 
 /** A manifest as the walk found it, without its canvases. */
 interface ManifestFacts {
