@@ -17,11 +17,11 @@ import { CanvasLookup, canvasKey, extractRegions, labelIndex } from './annotatio
 import type { RegionAnnotation } from './annotation/web-annotation.ts';
 import type { ImageService } from './iiif/image-service.ts';
 import type { Fetcher } from './net/fetcher.ts';
-import { negativeQuotas, negativesWanted } from './patch/negatives.ts';
+import { negativeQuotas, negativesWanted, pickNegatives } from './patch/negatives.ts';
 import type { Recipe } from './recipe/types.ts';
 import { ManifestEntry, ResolvedSources, ResolveOptions, SourceReader, uniqueAnnotations } from './sources/resolve.ts';
 import { byString } from './util/hash.ts';
-import { DatasetPlan, PlanSink, PlanTotals, planInto } from './plan/plan-dataset.ts';
+import { DatasetPlan, DeferredNegatives, PlanSink, PlanTotals, planInto } from './plan/plan-dataset.ts';
 
 /** A manifest as the walk found it, without its canvases. */
 interface ManifestFacts {
@@ -82,7 +82,7 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
   // An unbound annotation whose id a manifest also binds yields to the bound copy: find those first.
   // Each document's failures and facts are recorded at its first reading: pages in the first pass that
   // reads them, image services in the positives pass; the negatives pass records nothing.
-  let shadowed = new Set<string>();
+  const shadowed = new Set<string>();
   let pagesRecorded = false;
   if (unbound.length) {
     const ids = new Set(unbound.map((a) => a.id));
@@ -126,7 +126,6 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
   // What no manifest plans: unbound annotations whose label matches no class, and targets on no canvas of the sources.
   const unplaced = extractRegions(unbound.filter((a) => !shadowed.has(a.id)), new CanvasLookup([]), labelIndex(recipe.labels), { ownsTarget: (a, i) => owners.get(a)![i] === undefined });
   for (const x of unplaced.skipped) sink.skip({ key: x.annotationId, reason: x.reason, detail: x.detail });
-  shadowed = new Set();
 
   const counts = positivesOf.flatMap((m) => (m ? [...m.entries()].map(([key, positives]) => ({ key, positives })) : []));
   const wanted = negativesWanted({ ratio: recipe.negatives.ratio, classes: Object.keys(recipe.labels).length }, counts.reduce((a, c) => a + c.positives, 0));
@@ -134,11 +133,24 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
   let borrowed = 0;
   if (wanted > 0) {
     const quotas = negativeQuotas(counts, wanted);
+    const deferred: DeferredNegatives[] = [];
     for await (const { f, i, sources } of eachManifest({ pages: false, services: false }, (_, i) => (positivesOf[i]?.size ?? 0) > 0)) {
-      const n = planInto(recipe, sources, sink, { positives: false, negatives: { positivesPerCanvas: positivesOf[i]!, quotas }, sharedCanvasIds: shared, ownsTarget: ownsTarget(f.id) });
+      const n = planInto(recipe, sources, sink, { positives: false, negatives: { positivesPerCanvas: positivesOf[i]!, quotas, deferShared: true }, sharedCanvasIds: shared, ownsTarget: ownsTarget(f.id) });
       planned += n.negatives.planned;
       borrowed += n.negatives.borrowedWithinGroup;
       rightsExcluded.push(...n.rightsExcluded);
+      if (n.deferred) deferred.push(n.deferred);
+    }
+    // Canvases sharing an id across manifests share a group (by canvas or annotation): picked together, as at once.
+    if (deferred.length) {
+      const spec = { seed: recipe.seed, ratio: recipe.negatives.ratio, margin: recipe.negatives.margin, size: recipe.patch.size, classes: Object.keys(recipe.labels).length };
+      const { picks, borrowedWithinGroup } = pickNegatives(spec, deferred.flatMap((d) => d.canvases), quotas);
+      for (const d of deferred) {
+        const mine = new Set(d.canvases.map((c) => c.key));
+        d.emit(picks.filter((p) => mine.has(p.key)));
+      }
+      planned += picks.length;
+      borrowed += borrowedWithinGroup;
     }
   }
   const firstPerManifest = rightsExcluded.filter((r, k) => rightsExcluded.findIndex((x) => x.manifestId === r.manifestId) === k);

@@ -9,7 +9,7 @@ import type { Recipe } from '../recipe/types.ts';
 import type { ManifestEntry, ResolvedSources } from '../sources/resolve.ts';
 import { byString, stableId } from '../util/hash.ts';
 import { positivePatches } from '../patch/positives.ts';
-import { NegativeCanvas, NegativePlan, pickNegatives, planNegatives } from '../patch/negatives.ts';
+import { NegativeCanvas, NegativePick, NegativePlan, pickNegatives, planNegatives } from '../patch/negatives.ts';
 import type { CropRequest } from './crop-request.ts';
 import { PlanError } from '../errors.ts';
 import { planCrop } from './plan-crop.ts';
@@ -137,6 +137,12 @@ export interface PlanSink {
   skip(skip: PlanSkip): void;
 }
 
+/** Canvases whose negatives the caller picks (with other manifests' canvases of their groups), and how to plan the picks. */
+export interface DeferredNegatives {
+  canvases: NegativeCanvas[];
+  emit: (picks: readonly NegativePick[]) => void;
+}
+
 /** What planning counts besides the items it gives to its sink. */
 export type PlanTotals = Pick<DatasetPlan, 'negatives' | 'rightsExcluded'>;
 
@@ -150,8 +156,11 @@ export type PlanTotals = Pick<DatasetPlan, 'negatives' | 'rightsExcluded'>;
 export interface PlanScope extends RegionScope {
   /** Plan positives, and report regions and skips (default true). */
   positives?: boolean;
-  /** Negatives from this call's positives ('here', the default), from given counts and quotas, or none. */
-  negatives?: 'here' | 'none' | { positivesPerCanvas: ReadonlyMap<string, number>; quotas: ReadonlyMap<string, number> };
+  /**
+   * Negatives from this call's positives ('here', the default), from given counts and quotas, or none. With
+   * `deferShared`, canvases whose id other manifests share are not picked here but returned as `deferred`.
+   */
+  negatives?: 'here' | 'none' | { positivesPerCanvas: ReadonlyMap<string, number>; quotas: ReadonlyMap<string, number>; deferShared?: boolean };
   sharedCanvasIds?: ReadonlySet<string>;
 }
 
@@ -214,7 +223,7 @@ export function bySkipOrder(a: PlanSkip, b: PlanSkip): number {
  * kept here but crop keys and counts per canvas, so a sink that writes items
  * away holds planning's memory to its sources.
  */
-export function planInto(recipe: Recipe, sources: Pick<ResolvedSources, 'manifests' | 'annotations' | 'services'>, sink: PlanSink, scope: PlanScope = {}): PlanTotals & { positivesPerCanvas: Map<string, number> } {
+export function planInto(recipe: Recipe, sources: Pick<ResolvedSources, 'manifests' | 'annotations' | 'services'>, sink: PlanSink, scope: PlanScope = {}): PlanTotals & { positivesPerCanvas: Map<string, number>; deferred?: DeferredNegatives } {
   const rightsExcluded: DatasetPlan['rightsExcluded'] = [];
   const canvases = new CanvasLookup<CanvasContext & { entry: ManifestEntry; index: number }>(
     sources.manifests.flatMap((entry) => entry.manifest.canvases.map((canvas, index) => ({ manifest: entry.manifest, canvas, entry, index }))),
@@ -324,10 +333,10 @@ export function planInto(recipe: Recipe, sources: Pick<ResolvedSources, 'manifes
   }
 
   const mode = scope.negatives ?? 'here';
-  const negatives = mode === 'none'
-    ? { wanted: 0, planned: 0, borrowedWithinGroup: 0, shortfall: 0 }
+  const { deferred, ...negatives } = mode === 'none'
+    ? { wanted: 0, planned: 0, borrowedWithinGroup: 0, shortfall: 0, deferred: undefined }
     : addNegatives(recipe, regions, mode === 'here' ? { positivesPerCanvas } : mode, canvases, isShared, obstacles, prepare, addCrop, sink);
-  return { negatives, rightsExcluded: rightsExcluded.sort((a, b) => byString(a.manifestId, b.manifestId)), positivesPerCanvas };
+  return { negatives, rightsExcluded: rightsExcluded.sort((a, b) => byString(a.manifestId, b.manifestId)), positivesPerCanvas, ...(deferred ? { deferred } : {}) };
 }
 
 type Ready = { ctx: CropContext; placement: Placement; image: PaintedImage; occluders: Rect[] };
@@ -340,14 +349,14 @@ type Prepared = Ready | { skip: PlanSkipReason; detail: string };
 function addNegatives(
   recipe: Recipe,
   regions: readonly Region[],
-  given: { positivesPerCanvas: ReadonlyMap<string, number>; quotas?: ReadonlyMap<string, number> },
+  given: { positivesPerCanvas: ReadonlyMap<string, number>; quotas?: ReadonlyMap<string, number>; deferShared?: boolean },
   canvases: CanvasLookup<CanvasContext & { entry: ManifestEntry }>,
   isShared: (canvasId: string) => boolean,
   obstacles: ReadonlyMap<string, Rect[]>,
   prepare: (canvasKey: string, bounds: Rect) => Prepared,
   addCrop: (crop: CropRequest, ctx: CropContext) => void,
   sink: PlanSink,
-): DatasetPlan['negatives'] {
+): DatasetPlan['negatives'] & { deferred?: DeferredNegatives } {
   const size = recipe.patch.size;
   const groupOfCanvas = (key: string) => {
     const c = canvases.byCanvasKey(key)!;
@@ -366,8 +375,11 @@ function addNegatives(
   const spec = { seed: recipe.seed, ratio: recipe.negatives.ratio, margin: recipe.negatives.margin, size, classes: Object.keys(recipe.labels).length };
   // Quotas given (a manifest at a time): the wanted total and the shortfall are counted over all manifests by the caller.
   let plan: NegativePlan;
+  // A canvas whose id another manifest shares is in one group with that manifest's canvas (groupBy canvas or
+  // annotation): when planning a manifest at a time, its negatives are picked with the other's, by the caller.
+  const deferred = given.quotas && given.deferShared && recipe.split.groupBy !== 'manifest' ? facts.filter((f) => isShared(canvases.byCanvasKey(f.key)!.canvas.id)) : [];
   if (given.quotas) {
-    const { picks, borrowedWithinGroup } = pickNegatives(spec, facts, given.quotas);
+    const { picks, borrowedWithinGroup } = pickNegatives(spec, deferred.length ? facts.filter((f) => !deferred.includes(f)) : facts, given.quotas);
     plan = { picks, wanted: 0, planned: picks.length, borrowedWithinGroup, shortfall: 0 };
   } else {
     plan = planNegatives(spec, facts);
@@ -379,7 +391,7 @@ function addNegatives(
     if (list) list.push(r);
     else regionsByCanvas.set(k, [r]);
   }
-  for (const pick of plan.picks) {
+  const emit = (pick: NegativePick) => {
     const prep = ready.get(pick.key)!;
     const px = prep.ctx.scale.pixelsPerCanvasUnit;
     const canvasRegion = { x: pick.u / px, y: pick.v / px, w: size / px, h: size / px };
@@ -410,9 +422,10 @@ function addNegatives(
       imageRegion: tidyRect(canvasToImage(prep.placement, canvasRegion)),
       coverage: 0,
     });
-  }
+  };
+  for (const pick of plan.picks) emit(pick);
   const { picks: _picks, ...counts } = plan;
-  return counts;
+  return deferred.length ? { ...counts, deferred: { canvases: deferred, emit: (picks) => picks.forEach(emit) } } : counts;
 }
 
 /** The region whose centre is nearest the box's centre (ties: the first in input order). */
