@@ -17,7 +17,7 @@ import { CanvasLookup, canvasKey, extractRegions, labelIndex } from './annotatio
 import type { RegionAnnotation } from './annotation/web-annotation.ts';
 import type { ImageService } from './iiif/image-service.ts';
 import type { Fetcher } from './net/fetcher.ts';
-import { negativeQuotas, negativesWanted, pickNegatives } from './patch/negatives.ts';
+import { negativesWanted, pickNegatives, quotasInOrder } from './patch/negatives.ts';
 import type { Recipe } from './recipe/types.ts';
 import { ManifestEntry, ResolvedSources, ResolveOptions, SourceReader, uniqueAnnotations } from './sources/resolve.ts';
 import { byString } from './util/hash.ts';
@@ -115,11 +115,13 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
 
   const services = opts.services ? new Map<string, ImageService>() : undefined;
   const rightsExcluded: DatasetPlan['rightsExcluded'] = [];
-  const positivesOf: Map<string, number>[] = [];
+  // Positives per canvas, per manifest: canvas places and counts in typed arrays, in canvas id order (so the
+  // manifests in id order give every canvas in canvas key order), rather than a map of keys.
+  const positivesOf: CanvasCounts[] = [];
   for await (const { f, i, sources } of eachManifest({ pages: !pagesRecorded, services: true })) {
     if (services) for (const [id, s] of sources.services) if (!services.has(id)) services.set(id, s);
     const planned = planInto(recipe, sources, sink, { negatives: 'none', sharedCanvasIds: shared, ownsTarget: ownsTarget(f.id), reportsAnnotation: (a) => a.manifestId !== undefined });
-    positivesOf[i] = planned.positivesPerCanvas;
+    positivesOf[i] = canvasCounts(sources.manifests[0]!, planned.positivesPerCanvas);
     rightsExcluded.push(...planned.rightsExcluded);
   }
   reader.recording = false;
@@ -127,24 +129,34 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
   const unplaced = extractRegions(unbound.filter((a) => !shadowed.has(a.id)), new CanvasLookup([]), labelIndex(recipe.labels), { ownsTarget: (a, i) => owners.get(a)![i] === undefined });
   for (const x of unplaced.skipped) sink.skip({ key: x.annotationId, reason: x.reason, detail: x.detail });
 
-  const counts = positivesOf.flatMap((m) => (m ? [...m.entries()].map(([key, positives]) => ({ key, positives })) : []));
-  const wanted = negativesWanted({ ratio: recipe.negatives.ratio, classes: Object.keys(recipe.labels).length }, counts.reduce((a, c) => a + c.positives, 0));
+  const weights: number[] = [];
+  for (const c of positivesOf) if (c) for (const n of c.counts) weights.push(n);
+  const wanted = negativesWanted({ ratio: recipe.negatives.ratio, classes: Object.keys(recipe.labels).length }, weights.reduce((a, b) => a + b, 0));
   let planned = 0;
   let borrowed = 0;
   if (wanted > 0) {
-    const quotas = negativeQuotas(counts, wanted);
+    // Every canvas's share, in canvas key order (largest remainder over all canvases), kept beside its count.
+    const all = quotasInOrder(weights, wanted);
+    weights.length = 0;
+    let k = 0;
+    for (const c of positivesOf) if (c) c.quotas = all.subarray(k, (k += c.counts.length));
+    const deferredQuotas = new Map<string, number>();
     const deferred: DeferredNegatives[] = [];
-    for await (const { f, i, sources } of eachManifest({ pages: false, services: false }, (_, i) => (positivesOf[i]?.size ?? 0) > 0)) {
-      const n = planInto(recipe, sources, sink, { positives: false, negatives: { positivesPerCanvas: positivesOf[i]!, quotas, deferShared: true }, sharedCanvasIds: shared, ownsTarget: ownsTarget(f.id) });
+    for await (const { f, i, sources } of eachManifest({ pages: false, services: false }, (_, i) => (positivesOf[i]?.counts.length ?? 0) > 0)) {
+      const { positivesPerCanvas, quotas } = countsByKey(sources.manifests[0]!, positivesOf[i]!);
+      const n = planInto(recipe, sources, sink, { positives: false, negatives: { positivesPerCanvas, quotas, deferShared: true }, sharedCanvasIds: shared, ownsTarget: ownsTarget(f.id) });
       planned += n.negatives.planned;
       borrowed += n.negatives.borrowedWithinGroup;
       rightsExcluded.push(...n.rightsExcluded);
-      if (n.deferred) deferred.push(n.deferred);
+      if (n.deferred) {
+        deferred.push(n.deferred);
+        for (const c of n.deferred.canvases) deferredQuotas.set(c.key, quotas.get(c.key)!);
+      }
     }
     // Canvases sharing an id across manifests share a group (by canvas or annotation): picked together, as at once.
     if (deferred.length) {
       const spec = { seed: recipe.seed, ratio: recipe.negatives.ratio, margin: recipe.negatives.margin, size: recipe.patch.size, classes: Object.keys(recipe.labels).length };
-      const { picks, borrowedWithinGroup } = pickNegatives(spec, deferred.flatMap((d) => d.canvases), quotas);
+      const { picks, borrowedWithinGroup } = pickNegatives(spec, deferred.flatMap((d) => d.canvases), deferredQuotas);
       for (const d of deferred) {
         const mine = new Set(d.canvases.map((c) => c.key));
         d.emit(picks.filter((p) => mine.has(p.key)));
@@ -187,4 +199,36 @@ function unboundOwners(unbound: readonly RegionAnnotation[], facts: readonly Man
     }
   }
   return new Map(unbound.map((a) => [a, a.targets.map((t) => (t.within !== undefined && within.has(canvasKey(t.within, t.canvasId)) ? t.within : first.get(t.canvasId)))]));
+}
+
+/** A manifest's canvases with positives: their places in the manifest, in canvas id order, their counts and quotas. */
+interface CanvasCounts {
+  places: Int32Array;
+  counts: Int32Array;
+  quotas?: Int32Array;
+}
+
+function canvasCounts(entry: ManifestEntry, byKey: ReadonlyMap<string, number>): CanvasCounts {
+  const places: number[] = [];
+  const seen = new Set<string>();
+  entry.manifest.canvases.forEach((c, i) => {
+    const key = canvasKey(entry.manifest.id, c.id);
+    if (byKey.has(key) && !seen.has(key)) {
+      seen.add(key);
+      places.push(i);
+    }
+  });
+  places.sort((a, b) => byString(entry.manifest.canvases[a]!.id, entry.manifest.canvases[b]!.id));
+  return { places: Int32Array.from(places), counts: Int32Array.from(places, (i) => byKey.get(canvasKey(entry.manifest.id, entry.manifest.canvases[i]!.id))!) };
+}
+
+function countsByKey(entry: ManifestEntry, c: CanvasCounts): { positivesPerCanvas: Map<string, number>; quotas: Map<string, number> } {
+  const positivesPerCanvas = new Map<string, number>();
+  const quotas = new Map<string, number>();
+  c.places.forEach((place, k) => {
+    const key = canvasKey(entry.manifest.id, entry.manifest.canvases[place]!.id);
+    positivesPerCanvas.set(key, c.counts[k]!);
+    quotas.set(key, c.quotas![k]!);
+  });
+  return { positivesPerCanvas, quotas };
 }

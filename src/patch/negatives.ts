@@ -46,14 +46,11 @@ export interface NegativePlan {
 
 /** Splits `wanted` over items in proportion to their weights: largest remainder, ties by key. */
 export function proportionalQuotas(items: readonly { key: string; weight: number }[], wanted: number): number[] {
-  const total = items.reduce((a, b) => a + b.weight, 0);
-  if (total === 0) return items.map(() => 0);
-  const exact = items.map((it) => (wanted * it.weight) / total);
-  const quota = exact.map(Math.floor);
-  let left = wanted - quota.reduce((a, b) => a + b, 0);
-  const order = items.map((it, i) => ({ i, r: exact[i] - quota[i], key: it.key })).sort((a, b) => b.r - a.r || byString(a.key, b.key));
-  for (const o of order) if (left-- > 0) quota[o.i]++;
-  return quota;
+  const byKey = items.map((_, i) => i).sort((a, b) => byString(items[a]!.key, items[b]!.key));
+  const quota = quotasInOrder(byKey.map((i) => items[i]!.weight), wanted);
+  const out = new Array<number>(items.length);
+  byKey.forEach((i, k) => (out[i] = quota[k]!));
+  return out;
 }
 
 /**
@@ -86,8 +83,32 @@ export function negativesWanted(spec: Pick<NegativeSpec, 'ratio' | 'classes'>, p
 /** Each canvas's share of the negatives, by canvas key: in proportion to its positives (largest remainder, ties by key). */
 export function negativeQuotas(canvases: readonly Pick<NegativeCanvas, 'key' | 'positives'>[], wanted: number): Map<string, number> {
   const sorted = [...canvases].sort((a, b) => byString(a.key, b.key));
-  const quota = proportionalQuotas(sorted.map((c) => ({ key: c.key, weight: c.positives })), wanted);
+  const quota = quotasInOrder(Float64Array.from(sorted, (c) => c.positives), wanted);
   return new Map(sorted.map((c, i) => [c.key, quota[i]!]));
+}
+
+/**
+ * `wanted` split over weights given in key order, in proportion to them: largest
+ * remainder, ties to the earlier item (the smaller key). Typed arrays: a quota
+ * per canvas of a hundred thousand canvases without an object per canvas.
+ */
+export function quotasInOrder(weights: Float64Array | readonly number[], wanted: number): Int32Array {
+  const n = weights.length;
+  const quota = new Int32Array(n);
+  let total = 0;
+  for (let i = 0; i < n; i++) total += weights[i]!;
+  if (total === 0) return quota;
+  const remainder = new Float64Array(n);
+  let given = 0;
+  for (let i = 0; i < n; i++) {
+    const exact = (wanted * weights[i]!) / total;
+    quota[i] = Math.floor(exact);
+    remainder[i] = exact - quota[i]!;
+    given += quota[i]!;
+  }
+  const order = Int32Array.from({ length: n }, (_, i) => i).sort((a, b) => remainder[b]! - remainder[a]! || a - b);
+  for (let k = 0; k < n && given < wanted; k++, given++) quota[order[k]!]!++;
+  return quota;
 }
 
 /**

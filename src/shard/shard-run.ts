@@ -20,7 +20,7 @@ import { loadRecipe } from '../recipe/load.ts';
 import type { Recipe } from '../recipe/types.ts';
 import type { ResolvedSources } from '../sources/resolve.ts';
 import { byString } from '../util/hash.ts';
-import { cropHost, HostLoads, ShardPlan } from './partition.ts';
+import { cropHost, HostLoad, partitionLoads, ShardPlan } from './partition.ts';
 
 export const PLAN_DIR_VERSION = 3;
 
@@ -72,20 +72,16 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
   const fetcher = await openFetcher(recipe, opts);
   await mkdir(dir, { recursive: true });
   const sorter = new ExternalSort(join(dir, `.tmp-${processTag}-sort`), opts.sortRunChars);
-  const loads = new HostLoads();
   let patches = 0;
-  // Crop keys are 16 hex digits; their first 13 (52 bits) as numbers count each crop once in little memory
-  // (two keys alike in 52 bits, at odds of about n²/2⁵³, would count as one crop of an estimate).
-  const crops = new Set<number>();
-  // Lines sort by list (the order planFolderLines writes them in), then as DatasetPlan sorts each list;
-  // a crop (and its context) given again keeps its first line.
+  // Lines sort by list (the order planFolderLines writes them in), then as DatasetPlan sorts each list; a crop
+  // (and its context) given again keeps its first line. Lines keyed '!' come first and are not written: each
+  // crop's host with its key, and with each request, counted where the merge brings equal keys together, so
+  // the hosts' loads are known before the first line is written without a set of every crop and URL in memory.
   const { sources, manifests: _manifests, ...totals } = await planByManifest(recipe, fetcher, {
     crop: (crop, ctx) => {
-      const short = parseInt(crop.key.slice(0, 13), 16);
-      if (!crops.has(short)) {
-        crops.add(short);
-        loads.add(crop);
-      }
+      const host = cropHost(crop);
+      sorter.add(['!', host, 'crop', crop.key], '');
+      for (const p of crop.stitch.pieces) sorter.add(['!', host, 'url', p.url], '');
       sorter.add(['0', crop.key], JSON.stringify({ crops: crop }));
       sorter.add(['4', crop.key], JSON.stringify({ context: crop.key, value: ctx }));
     },
@@ -97,7 +93,24 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
     skip: (x) => sorter.add(['3', x.key, x.reason], JSON.stringify({ skipped: x })),
   }, { strict: !!opts.strict });
   const folderSources = { failures: sources.failures, notes: sources.notes ?? [], documents: sources.documents };
-  const shards = loads.partition(n);
+  // Read by hand up to the first plan line (a for…of left early would close the merge).
+  const lines = sorter.sortedEntries();
+  const loads = new Map<string, HostLoad>();
+  let previous: readonly string[] | undefined;
+  let next = lines.next();
+  for (; !next.done && next.value.key[0] === '!'; next = lines.next()) {
+    const e = next.value;
+    const repeat = previous !== undefined && sameKey(previous, e.key);
+    previous = e.key;
+    if (repeat) continue;
+    const [, host, kind] = e.key as [string, string, string];
+    let load = loads.get(host);
+    if (!load) loads.set(host, (load = { crops: 0, requests: 0 }));
+    if (kind === 'crop') load.crops++;
+    else load.requests++;
+  }
+  const shards = partitionLoads(loads, n);
+  const crops = shards.reduce((a, s) => a + s.crops, 0);
   const head: PlanFolder = {
     version: PLAN_DIR_VERSION,
     recipeFile: resolve(recipe.file),
@@ -108,15 +121,29 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
     trustedHosts: [...new Set(fetcher.options.trustedHosts ?? [])].sort(byString),
   };
   const tmp = join(dir, `.tmp-${processTag}-plan.jsonl`);
-  await writeTextParts(tmp, linesOf(JSON.stringify(head), sorter.sorted({ dropRepeats: (key) => key[0] === '0' || key[0] === '4' })));
+  await writeTextParts(tmp, planLines(JSON.stringify(head), next.done ? undefined : next.value, { [Symbol.iterator]: () => lines }));
   await rename(tmp, join(dir, PLAN_FILE));
   await writeFileAtomic(join(dir, 'shards.json'), `${JSON.stringify(shards, null, 2)}\n`);
-  return { shards, crops: crops.size, patches, sources: folderSources };
+  return { shards, crops, patches, sources: folderSources };
 }
 
-function* linesOf(first: string, rest: Iterable<string>): Generator<string> {
-  yield `${first}\n`;
-  for (const line of rest) yield `${line}\n`;
+/** The plan file's lines: the first line, then every sorted line, a crop or context given again kept once. */
+function* planLines(head: string, first: { key: readonly string[]; line: string } | undefined, rest: Iterable<{ key: readonly string[]; line: string }>): Generator<string> {
+  yield `${head}\n`;
+  let previous: readonly string[] | undefined;
+  const one = function* () {
+    if (first) yield first;
+    yield* rest;
+  };
+  for (const { key, line } of one()) {
+    const repeat = previous !== undefined && sameKey(previous, key) && (key[0] === '0' || key[0] === '4');
+    previous = key;
+    if (!repeat) yield `${line}\n`;
+  }
+}
+
+function sameKey(a: readonly string[], b: readonly string[]): boolean {
+  return a.length === b.length && a.every((k, i) => k === b[i]);
 }
 
 export const PLAN_FILE = 'plan.jsonl';

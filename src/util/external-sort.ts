@@ -10,7 +10,9 @@ interface Entry {
 }
 
 /** Characters of lines held before a sorted run is written out (a bound that does not grow with the input). */
-export const DEFAULT_RUN_CHARS = 16 << 20;
+export const DEFAULT_RUN_CHARS = 4 << 20;
+/** Runs merged at once: when a level holds this many runs they become one run of the next level. */
+const FAN_IN = 16;
 
 function compareEntries(a: Entry, b: Entry): number {
   const n = Math.min(a.key.length, b.key.length);
@@ -21,19 +23,30 @@ function compareEntries(a: Entry, b: Entry): number {
   return a.key.length - b.key.length || a.seq - b.seq;
 }
 
+/** A sorted stream of entries: its current head and how to advance. */
+interface Source {
+  head: Entry | undefined;
+  next: () => Entry | undefined;
+  close: () => void;
+}
+
 /**
  * Sorts text lines by a key in bounded memory: lines are held until they reach
- * `runChars` characters, then sorted and written to a run file in `dir`; reading
- * merges the runs. Ties keep the order lines were added in (a stable sort), so
- * the result is exactly `Array.prototype.sort` of all lines by the same key.
- * Synchronous, so pure code can hand it lines through a plain callback. Lines must not hold a newline;
- * `dir` is the sorter's own (removed when the sorted lines have been read).
+ * `runChars` characters, then sorted and written to a run file in `dir`; runs
+ * are merged 16 at a time into longer runs (so at most a few dozen are ever open),
+ * and reading merges what is left. Ties keep the order lines were added in (a
+ * stable sort), so the result is exactly `Array.prototype.sort` of all lines by
+ * the same key. Synchronous, so pure code can hand it lines through a plain
+ * callback. Lines must not hold a newline; `dir` is the sorter's own (removed
+ * when the sorted lines have been read).
  */
 export class ExternalSort {
   private buffer: Entry[] = [];
   private chars = 0;
   private seq = 0;
-  private readonly runs: string[] = [];
+  private made = 0;
+  /** Run files by level: a level-L run holds about FAN_IN^L buffers of lines. */
+  private readonly levels: string[][] = [];
 
   constructor(
     private readonly dir: string,
@@ -51,14 +64,38 @@ export class ExternalSort {
     return this.seq;
   }
 
+  /** Run files written so far, merged runs included. */
+  get runsWritten(): number {
+    return this.made;
+  }
+
   private spill(): void {
     this.buffer.sort(compareEntries);
+    let i = 0;
+    const run = this.writeRun({ head: this.buffer[i++], next: () => this.buffer[i++], close: () => undefined });
+    this.buffer = [];
+    this.chars = 0;
+    this.addRun(0, run);
+  }
+
+  private addRun(level: number, path: string): void {
+    (this.levels[level] ??= []).push(path);
+    if (this.levels[level]!.length < FAN_IN) return;
+    const paths = this.levels[level]!;
+    this.levels[level] = [];
+    const merged = this.writeRun(mergeSources(paths.map(readRun)));
+    for (const p of paths) rmSync(p, { force: true });
+    this.addRun(level + 1, merged);
+  }
+
+  /** Writes a sorted stream of entries to a new run file. */
+  private writeRun(source: Source): string {
     mkdirSync(this.dir, { recursive: true });
-    const path = join(this.dir, `run-${this.runs.length}.txt`);
+    const path = join(this.dir, `run-${this.made++}.txt`);
     const fd = openSync(path, 'w');
     try {
       let batch = '';
-      for (const e of this.buffer) {
+      for (let e = source.head; e; e = source.next()) {
         // A JSON array text holds no raw tab or newline: the first tab ends the key.
         batch += `${JSON.stringify([...e.key, e.seq])}\t${e.line}\n`;
         if (batch.length >= 1 << 20) {
@@ -69,51 +106,67 @@ export class ExternalSort {
       if (batch) writeSync(fd, batch);
     } finally {
       closeSync(fd);
+      source.close();
     }
-    this.runs.push(path);
-    this.buffer = [];
-    this.chars = 0;
+    return path;
   }
 
   /**
-   * Every line added, in key order (each run read a piece at a time). Removes the
-   * run files when done. `dropRepeats` drops a line whose key equals the line
-   * before it (the first added is kept) when it says so for that key.
+   * Every line added, in key order, with its key (each run read a piece at a
+   * time). Removes the run files when done.
    */
-  *sorted(opts: { dropRepeats?: (key: readonly string[]) => boolean } = {}): Generator<string> {
+  *sortedEntries(): Generator<{ key: readonly string[]; line: string }> {
     this.buffer.sort(compareEntries);
-    const readers = this.runs.map((path) => new LineReader(path));
-    const heads: { next: () => Entry | undefined; head: Entry | undefined }[] = readers.map((reader) => {
-      const next = () => {
-        const raw = reader.next();
-        if (raw === undefined) return undefined;
-        const tab = raw.indexOf('\t');
-        const parts = JSON.parse(raw.slice(0, tab)) as (string | number)[];
-        return { key: parts.slice(0, -1) as string[], seq: parts[parts.length - 1] as number, line: raw.slice(tab + 1) };
-      };
-      return { next, head: next() };
-    });
     let i = 0;
-    const memory = { next: () => this.buffer[i++], head: this.buffer[i++] };
-    heads.push(memory);
-    let last: readonly string[] | undefined;
+    const sources = [...this.levels.flat().map(readRun), { head: this.buffer[i++], next: () => this.buffer[i++], close: () => undefined }];
+    const merged = mergeSources(sources);
     try {
-      for (;;) {
-        let best: (typeof heads)[number] | undefined;
-        for (const h of heads) if (h.head && (!best || compareEntries(h.head, best.head!) < 0)) best = h;
-        if (!best) break;
-        const { key, line } = best.head!;
-        const repeat = last !== undefined && key.length === last.length && key.every((k, j) => k === last![j]);
-        if (!(repeat && opts.dropRepeats?.(key))) yield line;
-        last = key;
-        best.head = best.next();
-      }
+      for (let e = merged.head; e; e = merged.next()) yield e;
     } finally {
-      for (const r of readers) r.close();
+      merged.close();
       this.buffer = [];
       rmSync(this.dir, { recursive: true, force: true });
     }
   }
+
+  /**
+   * Every line added, in key order. `dropRepeats` drops a line whose key equals
+   * the line before it (the first added is kept) when it says so for that key.
+   */
+  *sorted(opts: { dropRepeats?: (key: readonly string[]) => boolean } = {}): Generator<string> {
+    let last: readonly string[] | undefined;
+    for (const { key, line } of this.sortedEntries()) {
+      const repeat = last !== undefined && key.length === last.length && key.every((k, j) => k === last![j]);
+      if (!(repeat && opts.dropRepeats?.(key))) yield line;
+      last = key;
+    }
+  }
+}
+
+/** Merges sorted sources into one (the smallest head first; a few dozen sources at most, so a linear scan). */
+function mergeSources(sources: Source[]): Source {
+  const pick = (): Entry | undefined => {
+    let best: Source | undefined;
+    for (const s of sources) if (s.head && (!best || compareEntries(s.head, best.head!) < 0)) best = s;
+    if (!best) return undefined;
+    const e = best.head!;
+    best.head = best.next();
+    return e;
+  };
+  return { head: pick(), next: pick, close: () => sources.forEach((s) => s.close()) };
+}
+
+/** A run file as a sorted source. */
+function readRun(path: string): Source {
+  const reader = new LineReader(path);
+  const next = () => {
+    const raw = reader.next();
+    if (raw === undefined) return undefined;
+    const tab = raw.indexOf('\t');
+    const parts = JSON.parse(raw.slice(0, tab)) as (string | number)[];
+    return { key: parts.slice(0, -1) as string[], seq: parts[parts.length - 1] as number, line: raw.slice(tab + 1) };
+  };
+  return { head: next(), next, close: () => reader.close() };
 }
 
 /** Reads a UTF-8 text file line by line, synchronously, 64 KiB at a time. */
@@ -144,8 +197,7 @@ class LineReader {
       const chunk = Buffer.allocUnsafe(1 << 16);
       const n = readSync(this.fd, chunk, 0, chunk.length, null);
       if (n === 0) {
-        closeSync(this.fd);
-        this.fd = undefined;
+        this.close();
       } else {
         this.pending = this.pending.length ? Buffer.concat([this.pending, chunk.subarray(0, n)]) : chunk.subarray(0, n);
       }

@@ -7,6 +7,7 @@ import { main } from '../../src/cli/main.ts';
 import { hashTree, planRecipe } from '../../src/pipeline.ts';
 import { harvestShard, planFolderLines, planShards, readPlanFolder } from '../../src/shard/shard-run.ts';
 import { twoArchives } from './two-archives.ts';
+import { partitionByHost } from '../../src/shard/partition.ts';
 
 let dir: string;
 beforeAll(async () => {
@@ -48,6 +49,8 @@ describe('sharded harvest and merge', () => {
       const folder = await readPlanFolder(plan);
       expect(folder.plan).toEqual(JSON.parse(JSON.stringify(inMemory)));
       expect(written).toBe([...planFolderLines({ ...folder, plan: inMemory })].join(''));
+      // The hosts' loads counted while merging the sorted lines give the partition of the crops held whole.
+      expect(folder.shards).toEqual(partitionByHost(inMemory.crops, 2));
       await planShards(recipe, 2, join(dir, 'plan-small-runs'), { mode: 'offline', sortRunChars: 4096 });
       expect(await readFile(join(dir, 'plan-small-runs', 'plan.jsonl'), 'utf8')).toBe(written);
       // shard 0 in its own process, killed with SIGKILL part-way; then run again: it resumes from its cache
