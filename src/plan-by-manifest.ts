@@ -89,7 +89,6 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
     const pagesSeen = new Set(reader.walkedPages);
     for (const f of facts) {
       const entry = await reader.reread(f);
-      if (!entry) continue;
       for (const a of await reader.boundAnnotations(entry, pagesSeen)) if (ids.has(a.id)) shadowed.add(a.id);
     }
     pagesRecorded = true;
@@ -102,7 +101,6 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
     for (let i = 0; i < facts.length; i++) {
       const f = facts[i]!;
       const entry = await reader.reread(f);
-      if (!entry) continue;
       reader.recording = record.pages;
       const bound = await reader.boundAnnotations(entry, pagesSeen);
       const mine = uniqueAnnotations([...bound.filter((a) => !boundSeen.has(a.id)), ...(unboundFor.get(f.id) ?? []).filter((a) => !shadowed.has(a.id))]);

@@ -1,5 +1,5 @@
 import { dirname, resolve as resolvePath } from 'node:path';
-import { FailureRecord, failureFrom, FetchError, InputError, SwatchbookError } from '../errors.ts';
+import { FailureRecord, failureFrom, FetchError, InputError, redactUrl, SwatchbookError, UsageError } from '../errors.ts';
 import { ImageService, parseInfoJson } from '../iiif/image-service.ts';
 import { infoJsonUrl } from '../iiif/image-url.ts';
 import type { Read } from '../iiif/problems.ts';
@@ -231,16 +231,20 @@ export class SourceReader {
     }
   }
 
-  /** Reads a manifest found by the walk again (a second reading: nothing recorded, nothing asked for twice). */
-  async reread(walked: { location: string; local: boolean; entry: Omit<ManifestEntry, 'manifest'> }): Promise<ManifestEntry | undefined> {
+  /**
+   * Reads a manifest found by the walk again (a second reading: nothing recorded;
+   * its bytes come from the cache or its file). It was read once, so a failure
+   * now (the cache or the file changed under the run) ends the run with the reason.
+   */
+  async reread(walked: { location: string; local: boolean; entry: Omit<ManifestEntry, 'manifest'> }): Promise<ManifestEntry> {
     const was = this.recording;
     this.recording = false;
     try {
       const loaded = await loadJson(walked.location, this.fetcher, 'E_MANIFEST_INVALID', walked.local);
       const manifest = readersFor(loaded.doc, walked.entry.family).manifest(loaded.doc, walked.location).value;
       return { ...walked.entry, manifest };
-    } catch {
-      return undefined; // it was read once; a second reading of the same bytes does not fail
+    } catch (err) {
+      throw new UsageError(`${redactUrl(walked.location)} was read at the start of this run but cannot be read again (${(err as Error).message}); run again`);
     } finally {
       this.recording = was;
     }
