@@ -9,7 +9,8 @@
  *   npm run build && tsx bench/pipeline-scale.ts 245
  */
 import { spawn } from 'node:child_process';
-import { mkdir, mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
+import { mkdir, mkdtemp, rm, stat, writeFile } from 'node:fs/promises';
+import { forEachLine } from '../src/util/text-file.ts';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import sharp from 'sharp';
@@ -43,23 +44,34 @@ const recipe = {
 await writeFile(join(work, 'manifest.json'), JSON.stringify(manifest));
 await writeFile(join(work, 'recipe.json'), JSON.stringify(recipe));
 
-const result = await new Promise<{ wallS: number; maxRssKb: number; code: number | null; stderr: string }>((done) => {
-  const child = spawn('/usr/bin/time', ['-f', 'TIME %e %M', process.execPath, ...(process.env.BENCH_PROFILE ? ['--cpu-prof', '--cpu-prof-dir', process.env.BENCH_PROFILE] : []), BIN, 'run', join(work, 'recipe.json'), '--out', join(work, 'dataset'), '--cache', join(work, 'cache'), '--no-probe', '--no-report', '--quiet'], { stdio: ['ignore', 'ignore', 'pipe'] });
+const result = await new Promise<{ wallS: number; maxRssKb: number; code: number | null; stderr: string; stdout: string }>((done) => {
+  const child = spawn('/usr/bin/time', ['-f', 'TIME %e %M', process.execPath, ...(process.env.BENCH_PROFILE ? ['--cpu-prof', '--cpu-prof-dir', process.env.BENCH_PROFILE] : []), BIN, 'run', join(work, 'recipe.json'), '--out', join(work, 'dataset'), '--cache', join(work, 'cache'), '--no-probe', '--no-report', '--json'], { stdio: ['ignore', 'pipe', 'pipe'] });
   let stderr = '';
+  let stdout = '';
+  child.stdout.on('data', (d) => (stdout += d));
   child.stderr.on('data', (d) => (stderr += d));
   child.on('close', (code) => {
     const m = /TIME ([\d.]+) (\d+)/.exec(stderr);
-    done({ wallS: m ? Number(m[1]) : NaN, maxRssKb: m ? Number(m[2]) : NaN, code, stderr: stderr.slice(-2000) });
+    done({ wallS: m ? Number(m[1]) : NaN, maxRssKb: m ? Number(m[2]) : NaN, code, stderr: stderr.slice(-2000), stdout });
   });
 });
 await server.stop();
+// The index is read a line at a time (a million patches' index is more text than one string holds).
 let patches = 0;
+let indexBytes = 0;
 try {
-  patches = (await readFile(join(work, 'dataset', 'index.jsonl'), 'utf8')).split('\n').filter(Boolean).length;
+  indexBytes = (await stat(join(work, 'dataset', 'index.jsonl'))).size;
+  await forEachLine(join(work, 'dataset', 'index.jsonl'), () => patches++);
 } catch {
   // no dataset: the run failed; its stderr is printed
 }
-console.log(JSON.stringify({ canvases: N, plannedPositives: N * (SIDE / 32) ** 2, patchesInIndex: patches, exit: result.code, wallS: result.wallS, peakRssMb: Math.round(result.maxRssKb / 1024), ...(result.code ? { stderr: result.stderr } : {}) }));
+let summary: unknown;
+try {
+  summary = JSON.parse(result.stdout);
+} catch {
+  summary = result.stdout.slice(-500);
+}
+console.log(JSON.stringify({ canvases: N, plannedPositives: N * (SIDE / 32) ** 2, patchesInIndex: patches, indexMb: Math.round(indexBytes / 2 ** 20), exit: result.code, wallS: result.wallS, peakRssMb: Math.round(result.maxRssKb / 1024), summary, ...(result.code ? { stderr: result.stderr } : {}) }));
 // A failed run leaves its folder (cache with the cut results, the partial dataset) for a look or a warm rerun.
 if (!process.env.BENCH_KEEP && result.code === 0) await rm(work, { recursive: true, force: true });
 else console.log(JSON.stringify({ kept: work }));
