@@ -15,7 +15,6 @@
  */
 import { CanvasLookup, canvasKey, extractRegions, labelIndex } from './annotation/regions.ts';
 import type { RegionAnnotation } from './annotation/web-annotation.ts';
-import type { ImageService } from './iiif/image-service.ts';
 import type { Fetcher } from './net/fetcher.ts';
 import { negativesWanted, pickNegatives, quotasInOrder } from './patch/negatives.ts';
 import type { Recipe } from './recipe/types.ts';
@@ -111,13 +110,13 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
     }
   }
 
-  const services = opts.services ? new Map<string, ImageService>() : undefined;
+  const services = opts.services ? new Map<string, ServiceSummary>() : undefined;
   const rightsExcluded: DatasetPlan['rightsExcluded'] = [];
   // Positives per canvas, per manifest: canvas places and counts in typed arrays, in canvas id order (so the
   // manifests in id order give every canvas in canvas key order), rather than a map of keys.
   const positivesOf: CanvasCounts[] = [];
   for await (const { f, i, sources } of eachManifest({ pages: !pagesRecorded, services: true })) {
-    if (services) for (const [id, s] of sources.services) if (!services.has(id)) services.set(id, s);
+    if (services) for (const [id, s] of sources.services) if (!services.has(id)) services.set(id, { id: s.id, version: s.version, level: s.level, width: s.width, height: s.height });
     const planned = planInto(recipe, sources, sink, { negatives: 'none', sharedCanvasIds: shared, ownsTarget: ownsTarget(f.id), reportsAnnotation: (a) => a.manifestId !== undefined });
     positivesOf[i] = canvasCounts(sources.manifests[0]!, planned.positivesPerCanvas);
     rightsExcluded.push(...planned.rightsExcluded);
@@ -163,13 +162,15 @@ export async function planByManifest(recipe: Recipe, fetcher: Fetcher, sink: Pla
       borrowed += borrowedWithinGroup;
     }
   }
-  const firstPerManifest = rightsExcluded.filter((r, k) => rightsExcluded.findIndex((x) => x.manifestId === r.manifestId) === k);
+  // A manifest excluded in both passes keeps the rights its first exclusion named.
+  const excluded = new Set<string>();
+  const firstPerManifest = rightsExcluded.filter((r) => !excluded.has(r.manifestId) && excluded.add(r.manifestId));
   return {
     negatives: { wanted, planned, borrowedWithinGroup: borrowed, shortfall: wanted - planned },
     rightsExcluded: firstPerManifest.sort((a, b) => byString(a.manifestId, b.manifestId)),
     sources: reader.finished(),
     manifests: facts.length,
-    ...(services ? { services: [...services.values()].map((s) => ({ id: s.id, version: s.version, level: s.level, width: s.width, height: s.height })).sort((a, b) => byString(a.id, b.id)) } : {}),
+    ...(services ? { services: [...services.values()].sort((a, b) => byString(a.id, b.id)) } : {}),
   };
 }
 
