@@ -342,14 +342,19 @@ export class SourceReader {
 
   /** Notes canvas ids that several manifests use (it happens in published data); they are kept apart by manifest. */
   noteSharedCanvases(manifests: readonly { id: string; canvasIds: readonly string[] }[]): Set<string> {
-    const owners = new Map<string, string[]>();
-    for (const m of manifests) for (const c of m.canvasIds) owners.set(c, [...(owners.get(c) ?? []), m.id]);
-    const shared = new Set<string>();
-    for (const [canvasId, ids] of [...owners.entries()].sort((a, b) => byString(a[0], b[0]))) {
-      if (ids.length > 1) {
-        this.notes.push({ kind: 'canvas-id-shared', canvasId, manifests: ids });
-        shared.add(canvasId);
+    // One owner kept as a string, a list only for an id a second manifest uses (most ids have one owner).
+    const owners = new Map<string, string | string[]>();
+    for (const m of manifests) {
+      for (const c of m.canvasIds) {
+        const seen = owners.get(c);
+        owners.set(c, seen === undefined ? m.id : typeof seen === 'string' ? [seen, m.id] : (seen.push(m.id), seen));
       }
+    }
+    const shared = new Set<string>();
+    const lists = [...owners].filter((e): e is [string, string[]] => typeof e[1] !== 'string').sort((a, b) => byString(a[0], b[0]));
+    for (const [canvasId, ids] of lists) {
+      this.notes.push({ kind: 'canvas-id-shared', canvasId, manifests: ids });
+      shared.add(canvasId);
     }
     return shared;
   }

@@ -1,5 +1,6 @@
 import { closeSync, mkdirSync, openSync, readSync, rmSync, writeSync } from 'node:fs';
 import { join } from 'node:path';
+import { StringDecoder } from 'node:string_decoder';
 import { byString } from './hash.ts';
 
 /** A line to sort and the key it sorts by (compared part by part, as strings). */
@@ -169,10 +170,17 @@ function readRun(path: string): Source {
   return { head: next(), next, close: () => reader.close() };
 }
 
-/** Reads a UTF-8 text file line by line, synchronously, 64 KiB at a time. */
+/**
+ * Reads a UTF-8 text file line by line, synchronously, 64 KiB at a time into one
+ * buffer per file (a new buffer per read would leave the garbage collector
+ * gigabytes of short-lived memory outside the heap to find while runs are merged).
+ */
 class LineReader {
   private fd: number | undefined;
-  private pending = Buffer.alloc(0);
+  private readonly chunk = Buffer.allocUnsafe(1 << 16);
+  private readonly decoder = new StringDecoder('utf8');
+  private text = '';
+  private at = 0;
   constructor(path: string) {
     this.fd = openSync(path, 'r');
   }
@@ -182,24 +190,25 @@ class LineReader {
   }
   next(): string | undefined {
     for (;;) {
-      const nl = this.pending.indexOf(10);
+      const nl = this.text.indexOf('\n', this.at);
       if (nl >= 0) {
-        const line = this.pending.toString('utf8', 0, nl);
-        this.pending = this.pending.subarray(nl + 1);
+        const line = this.text.slice(this.at, nl);
+        this.at = nl + 1;
         return line;
       }
+      const rest = this.text.slice(this.at);
+      this.at = 0;
       if (this.fd === undefined) {
-        if (!this.pending.length) return undefined;
-        const rest = this.pending.toString('utf8');
-        this.pending = Buffer.alloc(0);
-        return rest;
+        this.text = '';
+        return rest === '' ? undefined : rest;
       }
-      const chunk = Buffer.allocUnsafe(1 << 16);
-      const n = readSync(this.fd, chunk, 0, chunk.length, null);
+      const n = readSync(this.fd, this.chunk, 0, this.chunk.length, null);
       if (n === 0) {
         this.close();
+        this.text = rest + this.decoder.end();
       } else {
-        this.pending = this.pending.length ? Buffer.concat([this.pending, chunk.subarray(0, n)]) : chunk.subarray(0, n);
+        // The decoder keeps a character split across two reads until its last bytes come.
+        this.text = rest + this.decoder.write(this.chunk.subarray(0, n));
       }
     }
   }
