@@ -73,8 +73,7 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
   await mkdir(dir, { recursive: true });
   const sorter = new ExternalSort(join(dir, `.tmp-${processTag}-sort`), opts.sortRunChars);
   let patches = 0;
-  // Lines sort by list (the order planFolderLines writes them in), then as DatasetPlan sorts each list; a crop
-  // (and its context) given again keeps its first line. Lines keyed '!' come first and are not written: each
+  // Lines sort by list (the order planFolderLines writes them in), then as DatasetPlan sorts each list. Lines keyed '!' come first and are not written: each
   // crop's host with its key, and with each request, counted where the merge brings equal keys together, so
   // the hosts' loads are known before the first line is written without a set of every crop and URL in memory.
   const { sources, manifests: _manifests, ...totals } = await planByManifest(recipe, fetcher, {
@@ -93,17 +92,13 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
     skip: (x) => sorter.add(['3', x.key, x.reason], JSON.stringify({ skipped: x })),
   }, { strict: !!opts.strict });
   const folderSources = { failures: sources.failures, notes: sources.notes ?? [], documents: sources.documents };
+  // Equal '!' keys count once (a crop or a request named twice); a crop or context given again keeps its first line.
   // Read by hand up to the first plan line (a for…of left early would close the merge).
-  const lines = sorter.sortedEntries();
+  const lines = sorter.sortedEntries({ dropRepeats: (key) => key[0] === '!' || key[0] === '0' || key[0] === '4' });
   const loads = new Map<string, HostLoad>();
-  let previous: readonly string[] | undefined;
   let next = lines.next();
   for (; !next.done && next.value.key[0] === '!'; next = lines.next()) {
-    const e = next.value;
-    const repeat = previous !== undefined && sameKey(previous, e.key);
-    previous = e.key;
-    if (repeat) continue;
-    const [, host, kind] = e.key as [string, string, string];
+    const [, host, kind] = next.value.key as [string, string, string];
     let load = loads.get(host);
     if (!load) loads.set(host, (load = { crops: 0, requests: 0 }));
     if (kind === 'crop') load.crops++;
@@ -127,23 +122,11 @@ export async function planShards(recipe: Recipe, n: number, dir: string, opts: R
   return { shards, crops, patches, sources: folderSources };
 }
 
-/** The plan file's lines: the first line, then every sorted line, a crop or context given again kept once. */
-function* planLines(head: string, first: { key: readonly string[]; line: string } | undefined, rest: Iterable<{ key: readonly string[]; line: string }>): Generator<string> {
+/** The plan file's lines: the first line, then every sorted line. */
+function* planLines(head: string, first: { line: string } | undefined, rest: Iterable<{ line: string }>): Generator<string> {
   yield `${head}\n`;
-  let previous: readonly string[] | undefined;
-  const one = function* () {
-    if (first) yield first;
-    yield* rest;
-  };
-  for (const { key, line } of one()) {
-    const repeat = previous !== undefined && sameKey(previous, key) && (key[0] === '0' || key[0] === '4');
-    previous = key;
-    if (!repeat) yield `${line}\n`;
-  }
-}
-
-function sameKey(a: readonly string[], b: readonly string[]): boolean {
-  return a.length === b.length && a.every((k, i) => k === b[i]);
+  if (first) yield `${first.line}\n`;
+  for (const { line } of rest) yield `${line}\n`;
 }
 
 export const PLAN_FILE = 'plan.jsonl';

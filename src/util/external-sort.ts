@@ -114,15 +114,21 @@ export class ExternalSort {
 
   /**
    * Every line added, in key order, with its key (each run read a piece at a
-   * time). Removes the run files when done.
+   * time). Removes the run files when done. `dropRepeats` drops a line whose key
+   * equals the line before it (the first added is kept) when it says so for that key.
    */
-  *sortedEntries(): Generator<{ key: readonly string[]; line: string }> {
+  *sortedEntries(opts: SortedOptions = {}): Generator<{ key: readonly string[]; line: string }> {
     this.buffer.sort(compareEntries);
     let i = 0;
     const sources = [...this.levels.flat().map(readRun), { head: this.buffer[i++], next: () => this.buffer[i++], close: () => undefined }];
     const merged = mergeSources(sources);
+    let last: readonly string[] | undefined;
     try {
-      for (let e = merged.head; e; e = merged.next()) yield e;
+      for (let e = merged.head; e; e = merged.next()) {
+        const repeat = last !== undefined && e.key.length === last.length && e.key.every((k, j) => k === last![j]);
+        last = e.key;
+        if (!(repeat && opts.dropRepeats?.(e.key))) yield e;
+      }
     } finally {
       merged.close();
       this.buffer = [];
@@ -130,18 +136,14 @@ export class ExternalSort {
     }
   }
 
-  /**
-   * Every line added, in key order. `dropRepeats` drops a line whose key equals
-   * the line before it (the first added is kept) when it says so for that key.
-   */
-  *sorted(opts: { dropRepeats?: (key: readonly string[]) => boolean } = {}): Generator<string> {
-    let last: readonly string[] | undefined;
-    for (const { key, line } of this.sortedEntries()) {
-      const repeat = last !== undefined && key.length === last.length && key.every((k, j) => k === last![j]);
-      if (!(repeat && opts.dropRepeats?.(key))) yield line;
-      last = key;
-    }
+  /** Every line added, in key order (see `sortedEntries`). */
+  *sorted(opts: SortedOptions = {}): Generator<string> {
+    for (const { line } of this.sortedEntries(opts)) yield line;
   }
+}
+
+export interface SortedOptions {
+  dropRepeats?: (key: readonly string[]) => boolean;
 }
 
 /** Merges sorted sources into one (the smallest head first; a few dozen sources at most, so a linear scan). */
